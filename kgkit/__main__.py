@@ -1,0 +1,3 @@
+from kgkit.cli import main
+
+main()

@@ -1,0 +1,186 @@
+"""``kgkit import`` and ``kgkit graphs``."""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+
+import click
+
+from kgkit.cli.common import echo_json, get_workspace, is_terminal
+from kgkit.ingest import FORMATS, ImportOptions, Progress, import_files, make_slice
+from kgkit.ingest.loader import DEFAULT_BATCH
+from kgkit.store import list_graphs, open_store
+
+
+class _Bar:
+    """A one-line progress display on standard error: bytes read, statements per second."""
+
+    def __init__(self):
+        self.t0 = time.perf_counter()
+        self.last = 0.0
+
+    def __call__(self, p: Progress) -> None:
+        now = time.perf_counter()
+        if now - self.last < 0.2:
+            return
+        self.last = now
+        rate = p.statements / max(now - self.t0, 1e-9)
+        mb = p.bytes_read / 1e6
+        if p.bytes_total:
+            share = min(p.bytes_read / p.bytes_total, 1.0)
+            filled = int(share * 30)
+            bar = "#" * filled + "." * (30 - filled)
+            text = f"\r{p.file} [{bar}] {share:5.1%} {mb:,.1f} MB  {rate:,.0f} statements/s"
+        else:
+            text = f"\r{p.file} {mb:,.1f} MB  {rate:,.0f} statements/s"
+        click.echo(text, err=True, nl=False)
+
+    def done(self) -> None:
+        if self.last:
+            click.echo("\r\033[K", err=True, nl=False)
+
+
+@click.command("import")
+@click.argument("files", nargs=-1, required=True)
+@click.option("--graph", "-g", help="Graph to import into (default: from the file name).")
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(list(FORMATS)),
+    help="Input format (default: from the extension). 'records' is entity-record JSON Lines.",
+)
+@click.option(
+    "--on-error",
+    type=click.Choice(["stop", "skip"]),
+    default="stop",
+    show_default=True,
+    help="stop: the first bad statement aborts the import; skip: set it aside and go on.",
+)
+@click.option(
+    "--rejects",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="With --on-error skip: file for the bad statements "
+    "(default .kgkit/rejects/GRAPH.rejects.txt).",
+)
+@click.option(
+    "--keep",
+    type=click.Choice(["all", "profile"]),
+    default="all",
+    show_default=True,
+    help="profile: keep only statements whose predicate is in the workspace profile.",
+)
+@click.option("--predicates", help="Comma-separated predicates (CURIEs or <IRIs>) to keep.")
+@click.option("--languages", help="Comma-separated languages to keep for tagged literals.")
+@click.option(
+    "--batch-size",
+    type=int,
+    default=DEFAULT_BATCH,
+    show_default=True,
+    help="Statements loaded per batch: the memory budget (about 1 GB per million).",
+)
+@click.option("--base", "base_iri", help="Base IRI for relative IRIs in Turtle and JSON-LD.")
+@click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@click.pass_context
+def import_command(
+    ctx,
+    files,
+    graph,
+    fmt,
+    on_error,
+    rejects,
+    keep,
+    predicates,
+    languages,
+    batch_size,
+    base_iri,
+    as_json,
+    quiet,
+):
+    """Import FILES (N-Triples, N-Quads, Turtle, JSON-LD or entity records) into the store.
+
+    Compressed input (gzip, bzip2, xz, zstd) is recognised by its content. Use -
+    for standard input (with --format). Each import replaces its graph atomically.
+
+    Example: kgkit import dump.nt.gz --keep profile --languages en,de --on-error skip
+    """
+    ws = get_workspace(ctx)
+    opts = ImportOptions(
+        graph=graph,
+        format=fmt,
+        on_error=on_error,
+        rejects=rejects,
+        slice=make_slice(
+            ws,
+            keep=keep,
+            predicates=[p for p in (predicates or "").split(",") if p.strip()] or None,
+            languages=[x for x in (languages or "").split(",") if x.strip()] or None,
+        ),
+        batch_size=batch_size,
+        base_iri=base_iri,
+    )
+    bar = _Bar() if (is_terminal() and not quiet and not as_json) else None
+    try:
+        summaries = import_files(ws, list(files), opts, progress=bar)
+    finally:
+        if bar:
+            bar.done()
+    for s in summaries:
+        if as_json:
+            echo_json(s.to_dict())
+            continue
+        verb = "replaced" if s.replaced else "created"
+        click.echo(f"graph {s.graph} {verb} from {', '.join(s.files)} in {s.seconds:.2f} s")
+        width = len(f"{s.read:,}")
+        for key in ("read", "loaded", "duplicates", "filtered", "rejected"):
+            click.echo(f"  {key:<10} {getattr(s, key):>{width},}")
+        if s.rejects and s.rejected:
+            click.echo(f"  rejected statements set aside in {s.rejects}")
+
+
+@click.command("graphs")
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per graph.")
+@click.pass_context
+def graphs_command(ctx, as_json):
+    """List the graphs in the store with the provenance of their import.
+
+    Example: kgkit graphs --json
+    """
+    ws = get_workspace(ctx)
+    with open_store(ws.store_path) as store:
+        graphs = list_graphs(store)
+    if as_json:
+        for g in graphs:
+            echo_json(
+                {
+                    "graph": g.name,
+                    "content": g.content,
+                    "import": g.import_id,
+                    "files": [f.__dict__ for f in g.files],
+                    **g.counts,
+                    "started": g.started,
+                    "ended": g.ended,
+                    "kgkit_version": g.kgkit_version,
+                }
+            )
+        return
+    if not graphs:
+        click.echo("no graphs yet; import one with: kgkit import FILE")
+        return
+    for g in graphs:
+        c = g.counts
+        click.echo(
+            f"{g.name}  {c.get('loaded', 0):,} statements  (import {g.import_id}, {g.ended})"
+        )
+        for f in g.files:
+            comp = "" if f.compression == "none" else f", {f.compression}"
+            click.echo(f"  {f.name}  {f.format}{comp}, {f.size:,} bytes, sha256 {f.sha256[:16]}…")
+        click.echo(
+            f"  read {c.get('read', 0):,} = loaded {c.get('loaded', 0):,} + duplicates "
+            f"{c.get('duplicates', 0):,} + filtered {c.get('filtered', 0):,} + rejected "
+            f"{c.get('rejected', 0):,}"
+        )
+
+
+COMMANDS = [import_command, graphs_command]

@@ -1,0 +1,56 @@
+"""Input formats: names, file extensions, and telling one from a file name."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pyoxigraph as ox
+
+from kgkit.errors import KgkitError
+from kgkit.ingest.sources import COMPRESSION_SUFFIXES
+
+__all__ = ["FORMATS", "LINE_BASED", "RDF_FORMATS", "detect_format"]
+
+#: format name -> file extensions that imply it
+FORMATS = {
+    "nt": (".nt", ".ntriples"),
+    "nq": (".nq", ".nquads"),
+    "ttl": (".ttl", ".turtle"),
+    "jsonld": (".jsonld", ".json"),
+    "records": (".jsonl", ".ndjson"),
+}
+LINE_BASED = frozenset({"nt", "nq", "records"})
+RDF_FORMATS = {
+    "nt": ox.RdfFormat.N_TRIPLES,
+    "nq": ox.RdfFormat.N_QUADS,
+    "ttl": ox.RdfFormat.TURTLE,
+    "jsonld": ox.RdfFormat.JSON_LD,
+}
+
+
+def detect_format(label: str, explicit: str | None = None) -> str:
+    """The format of an input: ``explicit`` if given, else from the extension.
+
+    Compression extensions are looked through: ``dump.nt.gz`` is N-Triples.
+
+    >>> detect_format("dump.nt.gz")
+    'nt'
+    >>> detect_format("people.jsonl")
+    'records'
+    """
+    if explicit:
+        if explicit not in FORMATS:
+            raise KgkitError(f"unknown format {explicit!r} (known: {', '.join(FORMATS)})")
+        return explicit
+    if label == "-":
+        raise KgkitError("-: cannot tell the format of standard input; give --format")
+    suffixes = [s.lower() for s in Path(label).suffixes]
+    while suffixes and suffixes[-1] in COMPRESSION_SUFFIXES:
+        suffixes.pop()
+    if suffixes:
+        for name, exts in FORMATS.items():
+            if suffixes[-1] in exts:
+                return name
+    raise KgkitError(
+        f"{label}: cannot tell the format from the file name; give --format ({', '.join(FORMATS)})"
+    )

@@ -1,0 +1,656 @@
+"""Importing dumps into the store: all-or-nothing, sliced, every bad line accounted for.
+
+How an import runs:
+
+1. Statements go into a fresh content graph, in batches of ``batch_size``
+   statements, so memory stays flat however large the dump is.
+2. Line-based formats (N-Triples, N-Quads, entity records) are read line by line.
+   When the parser stops at an error, the bad line is found (the parser reports a
+   missing final dot on the *next* line, so the line before is checked too), set
+   aside, and parsing resumes on the line after it. Exactly the bad lines are
+   rejected; every good line is loaded.
+3. Counts reconcile: read = loaded + duplicates + filtered + rejected. ``loaded``
+   is the number of distinct statements in the content graph, so ``duplicates`` is
+   what the store folded together.
+4. Only when everything went well does the graph name point at the new content
+   (:func:`kgkit.store.register_import`, one transaction); the old content is
+   then removed. On any failure the new content graph is removed and the store is
+   as it was.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import tempfile
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import asdict, dataclass, field
+from datetime import UTC, datetime
+from pathlib import Path
+
+import pyoxigraph as ox
+
+import kgkit
+from kgkit.errors import KgkitError, ParseError, StoreError
+from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
+from kgkit.ingest.records import RecordError, _Terms, parse_record_line
+from kgkit.ingest.slicing import Slice
+from kgkit.ingest.sources import Source, open_source
+from kgkit.store import (
+    FileInfo,
+    content_graph_iri,
+    count_graph,
+    is_valid_graph_name,
+    next_import_id,
+    open_store,
+    register_import,
+    remove_content_graph,
+)
+from kgkit.workspace import Workspace
+
+__all__ = [
+    "ImportOptions",
+    "ImportSummary",
+    "Progress",
+    "import_files",
+    "import_into_store",
+    "graph_name_for",
+    "make_slice",
+]
+
+DEFAULT_BATCH = 1_000_000
+
+
+@dataclass(frozen=True)
+class ImportOptions:
+    """How to import. ``on_error`` is ``"stop"`` or ``"skip"``."""
+
+    graph: str | None = None
+    format: str | None = None
+    on_error: str = "stop"
+    rejects: Path | None = None
+    slice: Slice = field(default_factory=Slice)
+    batch_size: int = DEFAULT_BATCH
+    base_iri: str | None = None
+
+
+@dataclass
+class ImportSummary:
+    """What one import did. ``read == loaded + duplicates + filtered + rejected``."""
+
+    graph: str
+    files: list[str]
+    read: int = 0
+    loaded: int = 0
+    duplicates: int = 0
+    filtered: int = 0
+    rejected: int = 0
+    seconds: float = 0.0
+    content: str = ""
+    rejects: str | None = None
+    replaced: bool = False
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d["seconds"] = round(self.seconds, 3)
+        return d
+
+
+@dataclass(frozen=True)
+class Progress:
+    """Sent to the progress callback now and then during an import."""
+
+    file: str
+    bytes_read: int
+    bytes_total: int | None
+    statements: int
+
+
+ProgressCallback = Callable[[Progress], None]
+
+_CAUSE_PREFIX = re.compile(r"^Parser error\b.*?(?:column \d+|columns \d+ and \d+)\s*:\s*")
+_CAUSE_SUFFIX = re.compile(r"\s*\(line \d+\)\s*$")
+
+
+def _cause(exc: SyntaxError) -> str:
+    msg = exc.msg or str(exc)
+    msg = _CAUSE_SUFFIX.sub("", _CAUSE_PREFIX.sub("", msg))
+    return msg[:1].lower() + msg[1:] if msg else "malformed statement"
+
+
+def _is_statement(line: bytes) -> bool:
+    s = line.strip()
+    return bool(s) and not s.startswith(b"#")
+
+
+def graph_name_for(label: str) -> str:
+    """A graph name from a file name: ``dumps/sport-2026.nt.gz`` gives ``sport-2026``."""
+    if label == "-":
+        return "stdin"
+    name = Path(label).name
+    for _ in range(3):
+        stem, dot, ext = name.rpartition(".")
+        if dot and ext.lower() in {
+            "gz",
+            "bz2",
+            "xz",
+            "zst",
+            "nt",
+            "nq",
+            "ttl",
+            "jsonld",
+            "json",
+            "jsonl",
+            "ndjson",
+            "ntriples",
+            "nquads",
+            "turtle",
+        }:
+            name = stem
+    name = re.sub(r"[^A-Za-z0-9._-]+", "-", name).strip("-.") or "graph"
+    if not name[0].isalnum():
+        name = "g" + name
+    return name[:128]
+
+
+def make_slice(
+    ws: Workspace,
+    keep: str = "all",
+    predicates: list[str] | None = None,
+    languages: list[str] | None = None,
+) -> Slice:
+    """Build a :class:`Slice` from command-line style choices."""
+    if keep not in ("all", "profile"):
+        raise KgkitError(f"--keep takes 'all' or 'profile', not {keep!r}")
+    kept: set[str] | None = None
+    if keep == "profile":
+        kept = set(ws.profile.all_predicates())
+    if predicates:
+        kept = (kept or set()) | {ws.expand(p, where="--predicates") for p in predicates}
+    langs = None
+    if languages:
+        langs = tuple(x.strip().lower() for x in languages if x.strip())
+        for tag in langs:
+            if not re.fullmatch(r"\*|[a-z]{1,8}(-[a-z0-9]{1,8})*", tag):
+                raise KgkitError(f"--languages: {tag!r} is not a language tag")
+    return Slice(frozenset(kept) if kept is not None else None, langs)
+
+
+class _Rejects:
+    """The rejects file, written to a temporary name and renamed at the end."""
+
+    def __init__(self, path: Path | None):
+        self.path = path
+        self._fh = None
+        self._tmp: str | None = None
+        self.count = 0
+
+    def add(self, label: str, line: int | None, column: int | None, cause: str, text: str):
+        if self.path is None:
+            return
+        if self._fh is None:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
+            self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+        where = f"{label}:{line}" + (f":{column}" if column else "") if line else label
+        self._fh.write(f"# {where}: {cause}\n")
+        text = text.rstrip("\r\n")
+        self._fh.write(text + "\n" if text else "")
+        self.count += 1
+
+    def commit(self) -> str | None:
+        if self.path is None:
+            return None
+        if self._fh is None:
+            fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
+            self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+        self._fh.close()
+        os.replace(self._tmp, self.path)
+        self._fh = None
+        return str(self.path)
+
+    def abort(self) -> None:
+        if self._fh is not None:
+            self._fh.close()
+            os.unlink(self._tmp)
+            self._fh = None
+
+
+class _Run:
+    """State of one import: counters, the content graph, the error policy."""
+
+    def __init__(self, store, content: str, opts: ImportOptions, rejects: _Rejects, scope: str):
+        self.store = store
+        self.content = ox.NamedNode(content)
+        self.opts = opts
+        self.rejects = rejects
+        self.read = 0
+        self.filtered = 0
+        self.rejected = 0
+        self.scope = scope  # blank nodes are scoped per import and file
+        self._blank: dict[str, ox.BlankNode] = {}
+
+    # -- errors ---------------------------------------------------------
+    def bad(self, label: str, line: int | None, column: int | None, cause: str, text: str):
+        if self.opts.on_error != "skip":
+            hint = "; run with --on-error skip to set bad statements aside"
+            raise ParseError(label, line, column, cause + hint)
+        self.rejected += 1
+        self.read += 1
+        self.rejects.add(label, line, column, cause, text)
+
+    # -- writing --------------------------------------------------------
+    def load_text(self, data: bytes) -> None:
+        if data:
+            self.store.bulk_load(input=data, format=ox.RdfFormat.N_TRIPLES, to_graph=self.content)
+
+    def _scoped(self, term):
+        if isinstance(term, ox.BlankNode):
+            node = self._blank.get(term.value)
+            if node is None:
+                node = ox.BlankNode(f"{self.scope}{term.value}")
+                self._blank[term.value] = node
+            return node
+        return term
+
+    def load_quads(self, quads) -> None:
+        g, sc = self.content, self._scoped
+        batch = [ox.Quad(sc(q.subject), q.predicate, sc(q.object), g) for q in quads]
+        if batch:
+            self.store.bulk_extend(batch)
+
+
+def _solo_error(line: bytes, fmt: ox.RdfFormat) -> SyntaxError | None:
+    try:
+        for _ in ox.parse(input=line, format=fmt):
+            pass
+    except SyntaxError as exc:
+        return exc
+    return None
+
+
+def _column(line: bytes, err: SyntaxError) -> int | None:
+    """Column of a lone line's error; past the end of the line when the parser ran over it."""
+    if (err.lineno or 1) > 1:
+        return len(line.rstrip(b"\r\n").decode("utf-8", errors="replace")) + 1
+    return err.offset
+
+
+def _locate(seg: list[bytes], exc: SyntaxError, fmt: ox.RdfFormat) -> tuple[int, int | None, str]:
+    """Index in ``seg`` of the line that caused ``exc``, its column and the cause."""
+    reported = min(max((exc.lineno or 1) - 1, 0), len(seg) - 1)
+    for c in (reported - 1, reported):
+        if 0 <= c < len(seg) and _is_statement(seg[c]):
+            err = _solo_error(seg[c], fmt)
+            if err is not None:
+                return c, _column(seg[c], err), _cause(err)
+    for c, line in enumerate(seg):
+        if _is_statement(line):
+            err = _solo_error(line, fmt)
+            if err is not None:
+                return c, _column(line, err), _cause(err)
+    return reported, exc.offset, _cause(exc)
+
+
+def _decode(line: bytes) -> str:
+    return line.decode("utf-8", errors="replace")
+
+
+def _line_batches(source: Source, size: int) -> Iterator[tuple[int, list[bytes]]]:
+    """Batches of lines of about ``size`` lines; yields (number of the first line, lines)."""
+    first, lines = 1, []
+    for line in source.stream:
+        lines.append(line)
+        if len(lines) >= size:
+            yield first, lines
+            first += len(lines)
+            lines = []
+    if lines:
+        yield first, lines
+
+
+def _load_rdf_lines(
+    run: _Run, label: str, first: int, lines: list[bytes], fmt: ox.RdfFormat, nquads: bool
+) -> None:
+    """Parse a batch of N-Triples / N-Quads lines: slice it, reject bad lines, load it."""
+    sl = run.opts.slice
+    fast = sl.is_everything and not nquads
+    data = b"".join(lines)
+    if fast and b"_:" not in data:
+        # the store parses and loads; on an error, load around the bad line
+        run.read += sum(1 for x in lines if _is_statement(x))
+        _bulk_segments(run, label, first, lines, data, fmt)
+        return
+    pos = 0
+    while pos < len(lines):
+        seg = lines[pos:] if pos else lines
+        quads: list[ox.Quad] = []
+        bad = None
+        try:
+            for q in ox.parse(input=b"".join(seg) if pos else data, format=fmt):
+                quads.append(q)
+        except SyntaxError as exc:
+            bad = _locate(seg, exc, fmt)
+        upto = len(seg) if bad is None else bad[0]
+        n_stmt = sum(1 for x in seg[:upto] if _is_statement(x))
+        if len(quads) != n_stmt:
+            quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
+        run.read += len(quads)
+        kept = quads if sl.is_everything else [q for q in quads if sl.keeps(q)]
+        run.filtered += len(quads) - len(kept)
+        run.load_quads(kept)
+        if bad is None:
+            break
+        idx, col, cause = bad
+        run.bad(label, first + pos + idx, col, cause, _decode(seg[idx]))
+        pos += idx + 1
+
+
+def _bulk_segments(
+    run: _Run, label: str, first: int, lines: list[bytes], data: bytes, fmt: ox.RdfFormat
+) -> None:
+    pos = 0
+    while pos < len(lines):
+        seg = lines[pos:] if pos else lines
+        try:
+            run.load_text(b"".join(seg) if pos else data)
+            return
+        except SyntaxError as exc:
+            idx, col, cause = _locate(seg, exc, fmt)
+        run.read -= 1  # run.bad counts the bad statement again
+        run.bad(label, first + pos + idx, col, cause, _decode(seg[idx]))
+        if idx:
+            _bulk_segments(run, label, first + pos, seg[:idx], b"".join(seg[:idx]), fmt)
+        pos += idx + 1
+
+
+def _load_records(run: _Run, label: str, first: int, lines: list[bytes], terms: _Terms) -> None:
+    sl = run.opts.slice
+    kept: list[str] = []
+    for i, line in enumerate(lines):
+        if not line.strip():
+            continue
+        try:
+            triples = parse_record_line(line, terms)
+        except RecordError as exc:
+            run.bad(label, first + i, exc.column, exc.cause, _decode(line))
+            continue
+        run.read += len(triples)
+        for t in triples:
+            if sl.keeps(t):
+                kept.append(f"{t} .\n")
+            else:
+                run.filtered += 1
+    run.load_text("".join(kept).encode("utf-8"))
+
+
+def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
+    """Turtle and JSON-LD: not line-based, parsed as a stream."""
+    fmt = RDF_FORMATS[fmt_name]
+    base = run.opts.base_iri
+    if run.opts.slice.is_everything and run.opts.on_error == "stop":
+        before = count_graph(run.store, run.content.value)
+        try:
+            run.store.bulk_load(
+                input=source.stream, format=fmt, base_iri=base, to_graph=run.content
+            )
+        except SyntaxError as exc:
+            run.bad(source.label, exc.lineno, exc.offset, _cause(exc), "")
+        # a document's statements are counted after loading: the store dedups
+        # within one document, so read counts distinct statements of the file
+        run.read += count_graph(run.store, run.content.value) - before
+        return
+    parser = ox.parse(input=source.stream, format=fmt, base_iri=base)
+    batch: list[ox.Quad] = []
+    errors: list[tuple[int | None, int | None, str]] = []
+    last = None
+    while True:
+        try:
+            q = next(parser)
+        except StopIteration:
+            break
+        except SyntaxError as exc:
+            where = (exc.lineno, exc.offset)
+            if where == last:
+                raise ParseError(
+                    source.label,
+                    exc.lineno,
+                    exc.offset,
+                    _cause(exc) + "; the parser cannot recover here",
+                ) from None
+            last = where
+            errors.append((exc.lineno, exc.offset, _cause(exc)))
+            if run.opts.on_error != "skip":
+                run.bad(source.label, exc.lineno, exc.offset, _cause(exc), "")
+            continue
+        run.read += 1
+        if run.opts.slice.keeps(q):
+            batch.append(q)
+            if len(batch) >= run.opts.batch_size:
+                run.load_quads(batch)
+                batch = []
+        else:
+            run.filtered += 1
+    run.load_quads(batch)
+    if errors:
+        texts = _lines_of(source.path, {e[0] for e in errors if e[0]})
+        for line, col, cause in errors:
+            run.bad(source.label, line, col, cause, texts.get(line, ""))
+
+
+def _lines_of(path: Path | None, wanted: set[int]) -> dict[int, str]:
+    """The text of some lines of a file, for the rejects file (second pass)."""
+    if path is None or not wanted:
+        return {}
+    src = open_source(path)
+    out = {}
+    try:
+        for n, line in enumerate(src.stream, 1):
+            if n in wanted:
+                out[n] = _decode(line)
+                if len(out) == len(wanted):
+                    break
+    finally:
+        src.close()
+    return out
+
+
+def _load_source(
+    run: _Run,
+    source: Source,
+    fmt_name: str,
+    ws: Workspace | None,
+    progress: ProgressCallback | None,
+) -> None:
+    def tick():
+        if progress:
+            progress(Progress(source.label, source.bytes_read, source.size, run.read))
+
+    if fmt_name not in LINE_BASED:
+        tick()
+        _load_document(run, source, fmt_name)
+        tick()
+        return
+    terms = _Terms(ws) if fmt_name == "records" else None
+    if fmt_name == "records" and ws is None:
+        raise KgkitError("entity records need a workspace profile to map their fields")
+    # progress every ~50k lines, loading every batch_size lines
+    step = min(50_000, run.opts.batch_size)
+    pending: list[bytes] = []
+    pending_first = 1
+    for first, lines in _line_batches(source, step):
+        if not pending:
+            pending_first = first
+        pending.extend(lines)
+        if len(pending) >= run.opts.batch_size:
+            _dispatch(run, source.label, fmt_name, pending_first, pending, terms)
+            pending = []
+        tick()
+    if pending:
+        _dispatch(run, source.label, fmt_name, pending_first, pending, terms)
+    tick()
+
+
+def _dispatch(run, label, fmt_name, first, lines, terms):
+    if fmt_name == "records":
+        _load_records(run, label, first, lines, terms)
+    else:
+        _load_rdf_lines(run, label, first, lines, RDF_FORMATS[fmt_name], fmt_name == "nq")
+
+
+def _now() -> str:
+    return datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+
+
+def import_into_store(
+    store: ox.Store,
+    inputs: list[str],
+    graph: str,
+    opts: ImportOptions,
+    ws: Workspace | None = None,
+    progress: ProgressCallback | None = None,
+) -> ImportSummary:
+    """Import ``inputs`` as one import into graph ``graph`` of an opened store.
+
+    All or nothing: on any error the store is left exactly as it was.
+    """
+    if not is_valid_graph_name(graph):
+        raise KgkitError(f"{graph!r} is not a valid graph name (letters, digits, '.', '_' and '-')")
+    if opts.on_error not in ("stop", "skip"):
+        raise KgkitError(f"--on-error takes 'stop' or 'skip', not {opts.on_error!r}")
+    if opts.batch_size < 1:
+        raise KgkitError("--batch-size must be at least 1")
+    formats = [detect_format(x, opts.format) for x in inputs]
+    if inputs.count("-") > 1:
+        raise KgkitError("-: standard input can be read only once")
+    started, t0 = _now(), time.perf_counter()
+    import_id = next_import_id(store)
+    content = content_graph_iri(graph, import_id)
+    rejects = _Rejects(opts.rejects if opts.on_error == "skip" else None)
+    run = _Run(store, content, opts, rejects, scope=f"k{import_id}x")
+    files: list[FileInfo] = []
+    try:
+        for n, (label, fmt_name) in enumerate(zip(inputs, formats, strict=True), 1):
+            run.scope = f"k{import_id}f{n}x"
+            run._blank = {}
+            source = open_source(label)
+            try:
+                _load_source(run, source, fmt_name, ws, progress)
+                sha = source.finish()
+            except OSError as exc:
+                if isinstance(exc, SyntaxError):
+                    raise
+                raise KgkitError(
+                    f"{label}: cannot read ({exc.__class__.__name__}: {exc})"
+                ) from None
+            except (EOFError, ValueError) as exc:
+                # truncated or corrupt compressed data
+                if isinstance(exc, SyntaxError | UnicodeDecodeError):
+                    raise
+                raise KgkitError(f"{label}: corrupt {source.compression} data ({exc})") from None
+            finally:
+                source.close()
+            files.append(
+                FileInfo(
+                    name=label if label == "-" else os.path.basename(label),
+                    size=source.bytes_read,
+                    sha256=sha,
+                    format=fmt_name,
+                    compression=source.compression,
+                )
+            )
+        loaded = count_graph(store, content)
+        duplicates = run.read - run.filtered - run.rejected - loaded
+        if duplicates < 0:  # cannot happen unless the store changed under us
+            raise StoreError(
+                f"{content}: counts do not reconcile ({run.read} read, {loaded} stored)"
+            )
+        summary = ImportSummary(
+            graph=graph,
+            files=[f.name for f in files],
+            read=run.read,
+            loaded=loaded,
+            duplicates=duplicates,
+            filtered=run.filtered,
+            rejected=run.rejected,
+            content=content,
+        )
+        counts = {
+            k: getattr(summary, k) for k in ("read", "loaded", "duplicates", "filtered", "rejected")
+        }
+        options = json.dumps(
+            {
+                "format": opts.format,
+                "on_error": opts.on_error,
+                "predicates": sorted(opts.slice.predicates) if opts.slice.predicates else None,
+                "languages": list(opts.slice.languages) if opts.slice.languages else None,
+                "base_iri": opts.base_iri,
+            },
+            sort_keys=True,
+        )
+        previous = register_import(
+            store,
+            graph,
+            import_id,
+            content,
+            files,
+            counts,
+            started,
+            _now(),
+            kgkit.__version__,
+            options,
+        )
+    except BaseException:
+        rejects.abort()
+        remove_content_graph(store, content)
+        raise
+    summary.rejects = rejects.commit()
+    if previous:
+        summary.replaced = True
+        remove_content_graph(store, previous)
+    summary.seconds = time.perf_counter() - t0
+    return summary
+
+
+def import_files(
+    ws: Workspace,
+    inputs: list[str],
+    opts: ImportOptions,
+    progress: ProgressCallback | None = None,
+) -> list[ImportSummary]:
+    """Import files into the workspace store.
+
+    With ``opts.graph`` all inputs form one import into that graph; otherwise
+    each input is its own import into a graph named after the file.
+    """
+    if not inputs:
+        raise KgkitError("nothing to import: give one or more files, or - for standard input")
+    if opts.on_error == "skip" and opts.rejects is None:
+        opts = ImportOptions(**{**opts.__dict__, "rejects": None})
+    groups: list[tuple[str, list[str]]]
+    if opts.graph:
+        groups = [(opts.graph, list(inputs))]
+    else:
+        names = [graph_name_for(x) for x in inputs]
+        dupes = {n for n in names if names.count(n) > 1}
+        if dupes:
+            raise KgkitError(
+                f"two inputs would both import into graph {sorted(dupes)[0]!r}; "
+                "give --graph to import them together"
+            )
+        groups = [(n, [x]) for n, x in zip(names, inputs, strict=True)]
+    for label in inputs:
+        detect_format(label, opts.format)
+        if label != "-" and not Path(label).is_file():
+            raise KgkitError(f"{label}: no such file")
+    out = []
+    with open_store(ws.store_path, write=True) as store:
+        for name, group in groups:
+            g_opts = opts
+            if opts.on_error == "skip" and opts.rejects is None:
+                default = ws.root / ".kgkit" / "rejects" / f"{name}.rejects.txt"
+                g_opts = ImportOptions(**{**opts.__dict__, "rejects": default})
+            out.append(import_into_store(store, group, name, g_opts, ws, progress))
+    return out

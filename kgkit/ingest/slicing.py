@@ -1,0 +1,59 @@
+"""Slicing: which statements of a dump an import keeps.
+
+A slice keeps a statement when its predicate is in the kept set (if one is given)
+and, for a language-tagged literal object, when its tag matches one of the kept
+language ranges. Untagged literals, IRIs and blank nodes always pass the language
+test. Language matching is RFC 4647 "basic filtering": the range ``en`` matches
+``en`` and ``en-GB`` but not ``eng``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import pyoxigraph as ox
+
+__all__ = ["Slice", "language_matches"]
+
+
+def language_matches(tag: str, ranges: tuple[str, ...]) -> bool:
+    """RFC 4647 section 3.3.1 basic filtering, case-insensitive.
+
+    >>> language_matches("en-GB", ("en",))
+    True
+    >>> language_matches("eng", ("en",))
+    False
+    """
+    tag = tag.lower()
+    return any(r == "*" or tag == r or tag.startswith(r + "-") for r in ranges)
+
+
+@dataclass(frozen=True)
+class Slice:
+    """What an import keeps. ``None`` means no restriction on that axis."""
+
+    predicates: frozenset[str] | None = None
+    languages: tuple[str, ...] | None = None
+
+    @property
+    def is_everything(self) -> bool:
+        return self.predicates is None and self.languages is None
+
+    def keeps(self, quad: ox.Quad | ox.Triple) -> bool:
+        if self.predicates is not None and quad.predicate.value not in self.predicates:
+            return False
+        if self.languages is not None:
+            obj = quad.object
+            if isinstance(obj, ox.Literal):
+                lang = obj.language
+                if lang and not language_matches(lang, self.languages):
+                    return False
+        return True
+
+    def describe(self) -> str:
+        parts = []
+        if self.predicates is not None:
+            parts.append(f"{len(self.predicates)} predicates")
+        if self.languages is not None:
+            parts.append("languages " + ",".join(self.languages))
+        return "; ".join(parts) or "everything"

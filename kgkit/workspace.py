@@ -1,0 +1,317 @@
+"""Workspaces: finding and reading ``kgkit.yaml``, prefixes and the profile.
+
+A workspace is a folder holding ``kgkit.yaml``, ``queries/`` and ``vocab/``. The
+profile says which predicates of the knowledge graph mean label, alias, parent and
+so on, so that templates and the compiler never hard-code a predicate.
+
+>>> ws = Workspace(Path("/tmp/w"), Config.default())
+>>> ws.expand("skos:broader")
+'http://www.w3.org/2004/02/skos/core#broader'
+>>> ws.compact("http://www.w3.org/2004/02/skos/core#broader")
+'skos:broader'
+"""
+
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import yaml
+
+from kgkit.errors import WorkspaceError
+
+__all__ = [
+    "CONFIG_NAME",
+    "PROFILE_ROLES",
+    "Config",
+    "Profile",
+    "Workspace",
+    "find_workspace",
+    "init_workspace",
+    "load_workspace",
+]
+
+CONFIG_NAME = "kgkit.yaml"
+
+DEFAULT_PREFIXES = {
+    "rdf": "http://www.w3.org/1999/02/22-rdf-syntax-ns#",
+    "rdfs": "http://www.w3.org/2000/01/rdf-schema#",
+    "owl": "http://www.w3.org/2002/07/owl#",
+    "skos": "http://www.w3.org/2004/02/skos/core#",
+    "xsd": "http://www.w3.org/2001/XMLSchema#",
+    "dct": "http://purl.org/dc/terms/",
+}
+
+# role -> default predicates (CURIEs over DEFAULT_PREFIXES), in order of preference
+DEFAULT_PROFILE = {
+    "label": ["skos:prefLabel", "rdfs:label"],
+    "alias": ["skos:altLabel"],
+    "hidden_label": ["skos:hiddenLabel"],
+    "description": ["skos:definition", "rdfs:comment"],
+    "parent": ["skos:broader", "rdfs:subClassOf"],
+    "type": ["rdf:type"],
+    "same_as": ["owl:sameAs"],
+    "notation": ["skos:notation"],
+}
+PROFILE_ROLES = tuple(DEFAULT_PROFILE)
+
+CONFIG_KEYS = ("store", "prefixes", "profile", "languages", "endpoint")
+
+_PREFIX_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_.-]*$|^$")
+_CURIE = re.compile(r"^([A-Za-z][A-Za-z0-9_.-]*)?:(\S*)$")
+
+CONFIG_TEMPLATE = """\
+# kgkit workspace settings. Every command run inside this folder (or below it)
+# uses this file; `--workspace DIR` points at another one.
+
+# Where the embedded RDF store lives, relative to this file.
+store: {store}
+
+# Prefixes used to read CURIEs (skos:broader) in this file, in templates and
+# vocabulary specs, and to shorten IRIs in command output.
+prefixes:
+{prefixes}
+
+# The profile: which predicates of your knowledge graph mean what. Each role
+# takes a list, most preferred first. Map your own graph's predicates here;
+# templates and the compiler read them from this list, never from the query.
+#   label         preferred names              alias        other names
+#   hidden_label  names to match but not show  description  short definitions
+#   parent        "is a" / "part of" links     type         class membership
+#   same_as       same-as and redirect links   notation     codes
+profile:
+{profile}
+
+# Languages of labels to keep by default (BCP 47 tags; "en" also matches "en-GB").
+languages: [{languages}]
+
+# A SPARQL 1.1 endpoint to query instead of the embedded store, for a graph
+# that has outgrown one machine. Leave null to use the store.
+endpoint: null
+"""
+
+
+@dataclass(frozen=True)
+class Profile:
+    """Predicate IRIs by role, most preferred first."""
+
+    roles: dict[str, tuple[str, ...]]
+
+    def __getitem__(self, role: str) -> tuple[str, ...]:
+        return self.roles[role]
+
+    def all_predicates(self) -> frozenset[str]:
+        """Every predicate IRI the profile names, whatever its role."""
+        return frozenset(p for preds in self.roles.values() for p in preds)
+
+
+@dataclass(frozen=True)
+class Config:
+    """The parsed contents of ``kgkit.yaml``."""
+
+    store: str = ".kgkit/store"
+    prefixes: dict[str, str] = field(default_factory=lambda: dict(DEFAULT_PREFIXES))
+    profile: Profile = field(
+        default_factory=lambda: Profile(
+            {
+                r: tuple(_expand(c, DEFAULT_PREFIXES, "profile") for c in cs)
+                for r, cs in DEFAULT_PROFILE.items()
+            }
+        )
+    )
+    languages: tuple[str, ...] = ("en",)
+    endpoint: str | None = None
+
+    @classmethod
+    def default(cls) -> Config:
+        return cls()
+
+
+def _expand(term: str, prefixes: dict[str, str], where: str) -> str:
+    """Expand ``<iri>`` or ``prefix:local`` to a full IRI."""
+    term = term.strip()
+    if term.startswith("<") and term.endswith(">"):
+        iri = term[1:-1]
+        if not iri or any(c in iri for c in ' <>"{}|^`\\'):
+            raise WorkspaceError(f"{where}: {term!r} is not a valid IRI")
+        return iri
+    m = _CURIE.match(term)
+    if m and (m.group(1) or "") in prefixes:
+        return prefixes[m.group(1) or ""] + m.group(2)
+    if re.match(r"^[a-zA-Z][a-zA-Z0-9+.-]*:[^\s<>\"]+$", term) and (
+        "/" in term or term.startswith("urn:")
+    ):
+        return term
+    raise WorkspaceError(f"{where}: {term!r} is neither an IRI in <...> nor a known CURIE")
+
+
+class Workspace:
+    """An opened workspace: its folder and its parsed settings."""
+
+    def __init__(self, root: Path, config: Config):
+        self.root = Path(root)
+        self.config = config
+
+    @property
+    def store_path(self) -> Path:
+        return (self.root / self.config.store).resolve()
+
+    @property
+    def queries_dir(self) -> Path:
+        return self.root / "queries"
+
+    @property
+    def vocab_dir(self) -> Path:
+        return self.root / "vocab"
+
+    @property
+    def prefixes(self) -> dict[str, str]:
+        return self.config.prefixes
+
+    @property
+    def profile(self) -> Profile:
+        return self.config.profile
+
+    def expand(self, term: str, where: str = "term") -> str:
+        """Expand a CURIE or ``<IRI>`` with the workspace prefixes."""
+        return _expand(term, self.prefixes, where)
+
+    def compact(self, iri: str) -> str:
+        """Shorten an IRI to a CURIE with the longest matching prefix, if any."""
+        best = None
+        for name, ns in self.prefixes.items():
+            if iri.startswith(ns) and (best is None or len(ns) > len(best[1])):
+                local = iri[len(ns) :]
+                if re.fullmatch(r"[A-Za-z0-9_][A-Za-z0-9_.-]*|", local) and not local.endswith("."):
+                    best = (name, ns)
+        if best is None:
+            return f"<{iri}>"
+        return f"{best[0]}:{iri[len(best[1]) :]}"
+
+
+def _parse_config(data: object, path: Path) -> Config:
+    if data is None:
+        data = {}
+    if not isinstance(data, dict):
+        raise WorkspaceError(f"{path}: expected a mapping of settings at the top level")
+    for key in data:
+        if key not in CONFIG_KEYS:
+            raise WorkspaceError(f"{path}: unknown key {key!r} (known: {', '.join(CONFIG_KEYS)})")
+    store = data.get("store", ".kgkit/store")
+    if not isinstance(store, str) or not store.strip():
+        raise WorkspaceError(f"{path}: key 'store' must be a folder path")
+
+    prefixes = dict(DEFAULT_PREFIXES)
+    raw_prefixes = data.get("prefixes", {}) or {}
+    if not isinstance(raw_prefixes, dict):
+        raise WorkspaceError(f"{path}: key 'prefixes' must map prefix names to namespace IRIs")
+    for name, ns in raw_prefixes.items():
+        name = "" if name is None else str(name)
+        if not _PREFIX_NAME.match(name):
+            raise WorkspaceError(f"{path}: key 'prefixes.{name}' is not a valid prefix name")
+        if not isinstance(ns, str) or not re.match(r"^[a-zA-Z][a-zA-Z0-9+.-]*:\S+$", ns):
+            raise WorkspaceError(f"{path}: key 'prefixes.{name}' must be a namespace IRI")
+        prefixes[name] = ns
+
+    raw_profile = data.get("profile", {}) or {}
+    if not isinstance(raw_profile, dict):
+        raise WorkspaceError(f"{path}: key 'profile' must map roles to lists of predicates")
+    roles: dict[str, tuple[str, ...]] = {}
+    for role in raw_profile:
+        if role not in DEFAULT_PROFILE:
+            raise WorkspaceError(
+                f"{path}: unknown key 'profile.{role}' (roles: {', '.join(PROFILE_ROLES)})"
+            )
+    for role, default in DEFAULT_PROFILE.items():
+        value = raw_profile.get(role, default)
+        if isinstance(value, str):
+            value = [value]
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise WorkspaceError(f"{path}: key 'profile.{role}' must be a list of predicates")
+        roles[role] = tuple(_expand(v, prefixes, f"{path}: key 'profile.{role}'") for v in value)
+
+    languages = data.get("languages", ["en"])
+    if isinstance(languages, str):
+        languages = [x.strip() for x in languages.split(",")]
+    if not isinstance(languages, list) or not all(
+        isinstance(x, str) and re.fullmatch(r"[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*", x)
+        for x in languages
+    ):
+        raise WorkspaceError(f"{path}: key 'languages' must be a list of BCP 47 language tags")
+
+    endpoint = data.get("endpoint")
+    if endpoint is not None and (
+        not isinstance(endpoint, str) or not re.match(r"^https?://\S+$", endpoint)
+    ):
+        raise WorkspaceError(f"{path}: key 'endpoint' must be an http(s) URL or null")
+
+    return Config(
+        store=store,
+        prefixes=prefixes,
+        profile=Profile(roles),
+        languages=tuple(x.lower() for x in languages),
+        endpoint=endpoint,
+    )
+
+
+def load_workspace(root: Path | str) -> Workspace:
+    """Read the workspace whose ``kgkit.yaml`` is in ``root``."""
+    root = Path(root)
+    path = root / CONFIG_NAME
+    if not path.is_file():
+        raise WorkspaceError(f"{root}: no {CONFIG_NAME} here; run `kgkit init` to make one")
+    try:
+        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"{path}:{mark.line + 1}" if mark else str(path)
+        problem = getattr(exc, "problem", None) or "malformed YAML"
+        raise WorkspaceError(f"{where}: {problem}") from None
+    except UnicodeDecodeError:
+        raise WorkspaceError(f"{path}: not UTF-8 text") from None
+    return Workspace(root.resolve(), _parse_config(data, path))
+
+
+def find_workspace(start: Path | str | None = None) -> Workspace:
+    """Find the workspace in ``start`` (default: the current folder) or above it."""
+    here = Path(start or os.getcwd()).resolve()
+    for folder in (here, *here.parents):
+        if (folder / CONFIG_NAME).is_file():
+            return load_workspace(folder)
+    raise WorkspaceError(
+        f"no {CONFIG_NAME} in {here} or any folder above it; "
+        "run `kgkit init` or pass --workspace DIR"
+    )
+
+
+def init_workspace(root: Path | str, languages: tuple[str, ...] = ("en",)) -> Workspace:
+    """Create a workspace in ``root``: ``kgkit.yaml``, ``queries/``, ``vocab/``, the store.
+
+    An existing ``kgkit.yaml`` is never overwritten.
+    """
+    from kgkit.store import create_store
+
+    root = Path(root)
+    path = root / CONFIG_NAME
+    if path.exists():
+        raise WorkspaceError(f"{path} already exists; not overwriting it")
+    root.mkdir(parents=True, exist_ok=True)
+    width = max(len(k) for k in DEFAULT_PREFIXES) + 1
+    prefixes = "\n".join(f"  {k + ':':<{width}} {v}" for k, v in DEFAULT_PREFIXES.items())
+    profile = "\n".join(f"  {k}: [{', '.join(v)}]" for k, v in DEFAULT_PROFILE.items())
+    text = CONFIG_TEMPLATE.format(
+        store=".kgkit/store",
+        prefixes=prefixes,
+        profile=profile,
+        languages=", ".join(languages),
+    )
+    (root / "queries").mkdir(exist_ok=True)
+    (root / "vocab").mkdir(exist_ok=True)
+    tmp = path.with_suffix(".yaml.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    os.replace(tmp, path)
+    ws = load_workspace(root)
+    create_store(ws.store_path)
+    return ws
