@@ -1,0 +1,1 @@
+"""Benchmark scripts (not tests); see DEVELOPERS.md."""
