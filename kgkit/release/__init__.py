@@ -1,0 +1,1 @@
+"""Releases of compiled vocabularies: versions, diffs, changelogs, manifests, checks."""

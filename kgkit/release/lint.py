@@ -1,0 +1,379 @@
+"""Quality checks on a SKOS vocabulary: a release, a build folder or a SKOS file.
+
+Every check comes from the published catalogue of SKOS quality issues: C. Mader,
+B. Haslhofer and A. Isaac, "Finding Quality Issues in SKOS Vocabularies", TPDL 2012
+(LNCS 7489), and the issue list of the authors' qSKOS tool that grew out of it.
+Checks carry our own names; ``source`` names the catalogue entry each one is taken
+from. Two of them are also conditions of the W3C SKOS Reference (2009): S13 (the
+preferred, alternative and hidden label sets of a concept are pairwise disjoint)
+and S14 (at most one preferred label per language).
+
+Levels: ``error`` for what breaks the SKOS integrity conditions or an annotator
+reading the vocabulary (cycles, missing, empty or unprintable labels, two
+preferred labels in one language, one text used as two kinds of label);
+``warning`` for what a curator should look at (orphans, split hierarchies,
+labels shared between concepts, language gaps, top-concept problems).
+
+Concepts marked ``owl:deprecated true`` are kept out of the structural checks and
+the language coverage check: a release keeps them on purpose, unlinked.
+"""
+
+from __future__ import annotations
+
+import json
+import unicodedata
+from collections import defaultdict
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import networkx as nx
+import rdflib
+from rdflib.namespace import OWL, RDF, SKOS
+
+from kgkit.errors import KgkitError, ParseError
+
+__all__ = ["CHECKS", "Check", "Finding", "LintReport", "LintTargetError", "lint_graph", "lint_path"]
+
+_SOURCE = 'Mader, Haslhofer and Isaac, "Finding Quality Issues in SKOS Vocabularies", TPDL 2012'
+
+
+class LintTargetError(KgkitError):
+    """The lint target is neither a SKOS file nor a folder holding ``skos.ttl``."""
+
+
+@dataclass(frozen=True)
+class Check:
+    """One check: our name, its level and the catalogue entry it comes from."""
+
+    name: str
+    level: str
+    catalogue: str
+    summary: str
+
+    @property
+    def source(self) -> str:
+        return f"{_SOURCE}: {self.catalogue}"
+
+
+# Order is the order of the report. The catalogue names are the paper's (or, for
+# the last four, the qSKOS issue list's, from memory) and only appear as sources.
+CHECKS: tuple[Check, ...] = (
+    Check("hierarchy-loop", "error", "Cyclic Hierarchical Relations",
+          "a concept is its own ancestor through broader/narrower links"),
+    Check("no-preferred-label", "error", "Missing Labels",
+          "a concept has no preferred label in any language"),
+    Check("blank-label", "error", "Empty Labels",
+          "a label is empty or only white space"),
+    Check("two-preferred-labels", "error", "Inconsistent Preferred Labels (SKOS S14)",
+          "a concept has more than one preferred label in one language"),
+    Check("label-kind-clash", "error", "Disjoint Labels Violation (SKOS S13)",
+          "one text is two kinds of label (preferred, alternative, hidden) of one concept"),
+    Check("control-character-in-label", "error", "Unprintable Characters in Labels",
+          "a label holds a control, private-use, unassigned or line-separator character"),
+    Check("unlinked-concept", "warning", "Orphan Concepts",
+          "a concept has no broader, narrower or related link"),
+    Check("split-hierarchy", "warning", "Disconnected Concept Clusters",
+          "the linked concepts fall into more than one separate group"),
+    Check("shared-label", "warning", "Overlapping Labels",
+          "two concepts carry the same label text in the same language"),
+    Check("language-gap", "warning", "Incomplete Language Coverage",
+          "a concept has no preferred label in a language the vocabulary uses"),
+    Check("scheme-without-top", "warning", "Omitted Top Concepts",
+          "a concept scheme names no top concept"),
+    Check("top-concept-with-parent", "warning", "Top Concept Having Broader Concepts",
+          "a top concept of a scheme has a broader concept"),
+)  # fmt: skip
+_BY_NAME = {c.name: c for c in CHECKS}
+
+
+@dataclass(frozen=True, order=True)
+class Finding:
+    """One problem found: which check, on which concepts, and what exactly."""
+
+    check: str
+    subjects: tuple[str, ...]
+    message: str
+    level: str = field(compare=False)
+    source: str = field(compare=False)
+
+    def to_json(self) -> dict:
+        d = asdict(self)
+        d["subjects"] = list(self.subjects)
+        return d
+
+
+@dataclass
+class LintReport:
+    """Findings of every check on one vocabulary."""
+
+    target: str
+    concepts: int
+    findings: list[Finding]
+
+    @property
+    def errors(self) -> list[Finding]:
+        return [f for f in self.findings if f.level == "error"]
+
+    @property
+    def warnings(self) -> list[Finding]:
+        return [f for f in self.findings if f.level == "warning"]
+
+    def fired(self) -> set[str]:
+        """Names of the checks that found something."""
+        return {f.check for f in self.findings}
+
+    def to_json(self) -> dict:
+        return {
+            "target": self.target,
+            "concepts": self.concepts,
+            "counts": {"error": len(self.errors), "warning": len(self.warnings)},
+            "findings": [f.to_json() for f in self.findings],
+            "checks": [
+                {"name": c.name, "level": c.level, "source": c.source, "summary": c.summary}
+                for c in CHECKS
+            ],
+        }
+
+    def to_text(self) -> str:
+        lines = []
+        for f in self.findings:
+            lines.append(f"{f.level}: {f.check}: {f.message}")
+        lines.append(
+            f"{self.target}: {self.concepts} concepts, {len(self.errors)} errors, "
+            f"{len(self.warnings)} warnings"
+        )
+        return "\n".join(lines) + "\n"
+
+
+def _finding(name: str, subjects, message: str) -> Finding:
+    c = _BY_NAME[name]
+    return Finding(name, tuple(sorted(str(s) for s in subjects)), message, c.level, c.source)
+
+
+def _is_unprintable(ch: str) -> bool:
+    # Zero-width (non-)joiners are format characters that scripts such as Persian
+    # and Devanagari need in ordinary words; every other format character is invisible.
+    if ch in "\u200c\u200d":
+        return False
+    return unicodedata.category(ch) in {"Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"}
+
+
+def _match_key(text: str) -> str:
+    # same folding as the lexicon's match key: NFKC, white space folded, casefold
+    return " ".join(unicodedata.normalize("NFKC", text).split()).casefold()
+
+
+def _lang(lit: rdflib.term.Node) -> str:
+    return (getattr(lit, "language", None) or "").lower()
+
+
+def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
+    """Run every check on a parsed SKOS graph.
+
+    >>> g = rdflib.Graph().parse(data='''
+    ... @prefix skos: <http://www.w3.org/2004/02/skos/core#> .
+    ... <http://example.org/a> a skos:Concept ; skos:broader <http://example.org/a> .''',
+    ... format="turtle")
+    >>> sorted(lint_graph(g).fired())
+    ['hierarchy-loop', 'no-preferred-label']
+    """
+    concepts: set = set(g.subjects(RDF.type, SKOS.Concept))
+    for p in (SKOS.broader, SKOS.narrower, SKOS.related):
+        for s, o in g.subject_objects(p):
+            concepts.update((s, o))
+    concepts.update(g.subjects(SKOS.topConceptOf, None))
+    concepts.update(g.objects(None, SKOS.hasTopConcept))
+    # anything carrying a SKOS label is a concept unless typed as a scheme or collection
+    others = set(g.subjects(RDF.type, SKOS.ConceptScheme)) | set(
+        g.subjects(RDF.type, SKOS.Collection)
+    )
+    for p in (SKOS.prefLabel, SKOS.altLabel, SKOS.hiddenLabel):
+        concepts.update(s for s in g.subjects(p, None) if s not in others)
+    concepts = {c for c in concepts if not isinstance(c, rdflib.Literal)}
+    deprecated = {c for c in concepts if (c, OWL.deprecated, rdflib.Literal(True)) in g} | {
+        c for c in concepts if str(g.value(c, OWL.deprecated) or "").lower() == "true"
+    }
+    live = concepts - deprecated
+    out: list[Finding] = []
+
+    # hierarchy: child -> parent edges from broader and from narrower
+    tree = nx.DiGraph()
+    tree.add_nodes_from(concepts)
+    for c, p in g.subject_objects(SKOS.broader):
+        tree.add_edge(c, p)
+    for p, c in g.subject_objects(SKOS.narrower):
+        tree.add_edge(c, p)
+    for comp in nx.strongly_connected_components(tree):
+        if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
+            names = ", ".join(sorted(str(n) for n in comp))
+            out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
+
+    # labels
+    kinds = {"preferred": SKOS.prefLabel, "alternative": SKOS.altLabel, "hidden": SKOS.hiddenLabel}
+    shared: dict[tuple[str, str], set] = defaultdict(set)
+    for c in sorted(concepts, key=str):
+        labels = {k: list(g.objects(c, p)) for k, p in kinds.items()}
+        if not labels["preferred"]:
+            out.append(_finding("no-preferred-label", [c], f"{c} has no preferred label"))
+        by_lang = defaultdict(set)
+        for lit in labels["preferred"]:
+            by_lang[_lang(lit)].add(str(lit))
+        for lang, texts in sorted(by_lang.items()):
+            if len(texts) > 1:
+                shown = ", ".join(repr(t) for t in sorted(texts))
+                out.append(
+                    _finding(
+                        "two-preferred-labels",
+                        [c],
+                        f"{c} has {len(texts)} preferred labels in "
+                        f"{lang or 'no language'}: {shown}",
+                    )
+                )
+        seen: dict[tuple[str, str], str] = {}
+        for kind, lits in labels.items():
+            for lit in sorted(lits, key=str):
+                text = str(lit)
+                if not text.strip():
+                    out.append(_finding("blank-label", [c], f"{c} has an empty {kind} label"))
+                    continue
+                bad = sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+                if bad:
+                    out.append(
+                        _finding(
+                            "control-character-in-label",
+                            [c],
+                            f"{kind} label {text!r} of {c} holds {', '.join(bad)}",
+                        )
+                    )
+                key = (text, _lang(lit))
+                if key in seen and seen[key] != kind:
+                    out.append(
+                        _finding(
+                            "label-kind-clash",
+                            [c],
+                            f"{text!r} is both the {seen[key]} and the {kind} label of {c}",
+                        )
+                    )
+                seen.setdefault(key, kind)
+                if kind != "hidden" and c in live:
+                    shared[(_match_key(text), _lang(lit))].add(c)
+    for (key, lang), owners in sorted(shared.items()):
+        if len(owners) > 1:
+            names = ", ".join(sorted(str(o) for o in owners))
+            out.append(
+                _finding(
+                    "shared-label",
+                    owners,
+                    f"label {key!r} ({lang or 'no language'}) is used by {names}",
+                )
+            )
+
+    # language coverage: languages of the preferred labels of live concepts
+    langs_of = {c: {_lang(lit) for lit in g.objects(c, SKOS.prefLabel)} - {""} for c in live}
+    used = set().union(*langs_of.values()) if langs_of else set()
+    for c in sorted(live, key=str):
+        if not langs_of[c] and not list(g.objects(c, SKOS.prefLabel)):
+            continue  # reported as no-preferred-label
+        missing = sorted(used - langs_of[c])
+        if missing:
+            out.append(
+                _finding(
+                    "language-gap",
+                    [c],
+                    f"{c} has no preferred label in {', '.join(missing)}",
+                )
+            )
+
+    # structure among live concepts: orphans and separate groups
+    links = nx.Graph()
+    links.add_nodes_from(live)
+    for p in (SKOS.broader, SKOS.narrower, SKOS.related):
+        for s, o in g.subject_objects(p):
+            if s in live and o in live and s != o:
+                links.add_edge(s, o)
+    for c in sorted(live, key=str):
+        if links.degree(c) == 0:
+            out.append(
+                _finding("unlinked-concept", [c], f"{c} has no broader, narrower or related link")
+            )
+    groups = [comp for comp in nx.connected_components(links) if len(comp) > 1]
+    if len(groups) > 1:
+        groups.sort(key=lambda comp: (-len(comp), min(str(n) for n in comp)))
+        desc = "; ".join(f"{len(comp)} around {min(str(n) for n in comp)}" for comp in groups)
+        out.append(
+            _finding(
+                "split-hierarchy",
+                [min(str(n) for n in comp) for comp in groups],
+                f"linked concepts fall into {len(groups)} separate groups: {desc}",
+            )
+        )
+
+    # concept schemes and their top concepts
+    schemes = set(g.subjects(RDF.type, SKOS.ConceptScheme))
+    schemes |= set(g.objects(None, SKOS.inScheme)) | set(g.objects(None, SKOS.topConceptOf))
+    tops = defaultdict(set)
+    for s, c in g.subject_objects(SKOS.hasTopConcept):
+        tops[s].add(c)
+    for c, s in g.subject_objects(SKOS.topConceptOf):
+        tops[s].add(c)
+    for s in sorted(schemes, key=str):
+        if not tops[s]:
+            out.append(
+                _finding("scheme-without-top", [s], f"concept scheme {s} names no top concept")
+            )
+    for s in sorted(tops, key=str):
+        for c in sorted(tops[s], key=str):
+            parents = sorted(str(p) for p in tree.successors(c)) if c in tree else []
+            if c in live and parents:
+                out.append(
+                    _finding(
+                        "top-concept-with-parent",
+                        [c],
+                        f"top concept {c} of {s} has broader {', '.join(parents)}",
+                    )
+                )
+
+    order = {c.name: i for i, c in enumerate(CHECKS)}
+    out = sorted(set(out), key=lambda f: (order[f.check], f.subjects, f.message))
+    return LintReport(target=target, concepts=len(concepts), findings=out)
+
+
+def _skos_file(target: Path) -> Path:
+    if target.is_dir():
+        path = target / "skos.ttl"
+        if not path.is_file():
+            raise LintTargetError(
+                f"{target}: no skos.ttl in this folder (a release or build folder)"
+            )
+        return path
+    if not target.is_file():
+        raise LintTargetError(f"{target}: no such file or folder")
+    return target
+
+
+def lint_path(target: str | Path) -> LintReport:
+    """Lint a release folder, a build folder (both hold ``skos.ttl``) or a SKOS file.
+
+    The file is read as Turtle unless its extension names another RDF syntax
+    rdflib knows. A syntax error raises :class:`ParseError` with file and line.
+    """
+    path = _skos_file(Path(target))
+    fmt = rdflib.util.guess_format(str(path)) or "turtle"
+    g = rdflib.Graph()
+    try:
+        g.parse(str(path), format=fmt)
+    except Exception as exc:  # rdflib parsers raise many types; every one is bad input here
+        line = getattr(exc, "lines", None)
+        cause = (
+            getattr(exc, "_why", None) or str(exc).splitlines()[0]
+            if str(exc)
+            else type(exc).__name__
+        )
+        raise ParseError(
+            str(path), line + 1 if isinstance(line, int) else None, None, cause
+        ) from None
+    return lint_graph(g, target=str(target))
+
+
+def report_json(report: LintReport) -> str:
+    return json.dumps(report.to_json(), sort_keys=True, ensure_ascii=False)
