@@ -1,0 +1,417 @@
+"""What changed between two compiled vocabularies (two releases, or a release and a build).
+
+The diff compares topic files (``topics.jsonl``) topic by topic and lists only what
+changed, each change with the topic ids it concerns and its cause: ``curation``
+when an edit of the curation overlay made it (an edit applied on one side only,
+or a topic the curation added), ``graph`` otherwise.
+
+Change kinds (the version part each one bumps is in
+:data:`kgkit.release.versioning.LEVEL_OF_KIND`):
+
+==================== =======================================================
+``added``             a topic that was not there (or was only in the other
+                      side's past) is active now
+``removed``           a topic is gone altogether (not even kept as deprecated)
+``deprecated``        an active topic is now deprecated (``after``: its
+                      replacement or null)
+``restored``          a deprecated topic is active again
+``id-changed``        the same source entity now has another topic id
+``relabelled``        the preferred label in one language changed, appeared
+                      or went (``before``/``after`` null when absent)
+``moved``             the parent links changed (``before``/``after``: parents)
+``alias-added``       an alias appeared in one language
+``alias-removed``     an alias went in one language
+``notation-changed``  the notation changed
+``replacement-changed`` a deprecated topic points at another replacement
+==================== =======================================================
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from kgkit.errors import KgkitError
+
+__all__ = [
+    "Change",
+    "DiffError",
+    "VocabDiff",
+    "diff_folders",
+    "diff_topics",
+    "read_topics",
+]
+
+_KIND_ORDER = (
+    "removed",
+    "deprecated",
+    "id-changed",
+    "added",
+    "restored",
+    "moved",
+    "relabelled",
+    "alias-added",
+    "alias-removed",
+    "notation-changed",
+    "replacement-changed",
+)
+
+
+class DiffError(KgkitError):
+    """A diff side is not a vocabulary folder or its topic file is malformed."""
+
+
+@dataclass(frozen=True)
+class Change:
+    """One change to one topic."""
+
+    kind: str
+    topic: str
+    ids: tuple[str, ...]
+    cause: str = "graph"
+    language: str | None = None
+    before: object = None
+    after: object = None
+
+    def to_json(self) -> dict:
+        return {
+            "kind": self.kind,
+            "topic": self.topic,
+            "ids": list(self.ids),
+            "cause": self.cause,
+            "language": self.language,
+            "before": self.before,
+            "after": self.after,
+        }
+
+    def sort_key(self):
+        return (
+            _KIND_ORDER.index(self.kind),
+            self.topic,
+            self.language or "",
+            json.dumps(self.before, sort_keys=True, ensure_ascii=False),
+            json.dumps(self.after, sort_keys=True, ensure_ascii=False),
+        )
+
+
+@dataclass
+class VocabDiff:
+    """Every change from ``old`` to ``new``, sorted by kind, topic and language."""
+
+    old: str
+    new: str
+    changes: list[Change] = field(default_factory=list)
+
+    def kinds(self) -> list[str]:
+        return [c.kind for c in self.changes]
+
+    def counts(self) -> dict[str, int]:
+        out: dict[str, int] = {}
+        for c in self.changes:
+            out[c.kind] = out.get(c.kind, 0) + 1
+        return dict(sorted(out.items(), key=lambda kv: _KIND_ORDER.index(kv[0])))
+
+    def is_empty(self) -> bool:
+        return not self.changes
+
+    def to_json(self) -> dict:
+        return {
+            "old": self.old,
+            "new": self.new,
+            "counts": self.counts(),
+            "changes": [c.to_json() for c in self.changes],
+        }
+
+    def to_text(self) -> str:
+        if not self.changes:
+            return f"no topic changed from {self.old} to {self.new}\n"
+        lines = [f"{self.old} -> {self.new}: {len(self.changes)} changes"]
+        for kind, n in self.counts().items():
+            lines.append(f"  {kind:<20} {n}")
+        lines.append("")
+        for c in self.changes:
+            lines.append(describe(c))
+        return "\n".join(lines) + "\n"
+
+
+def _show(value) -> str:
+    if value is None:
+        return "(none)"
+    if isinstance(value, list):
+        return "[" + ", ".join(value) + "]" if value else "(none)"
+    return json.dumps(value, ensure_ascii=False)
+
+
+def describe(c: Change) -> str:
+    """One readable line for a change."""
+    lang = (
+        f" [{c.language or 'untagged'}]"
+        if c.kind in ("relabelled", "alias-added", "alias-removed")
+        else ""
+    )
+    if c.kind == "added":
+        what = f"added {c.topic} {_show(c.after)}"
+    elif c.kind == "removed":
+        what = f"removed {c.topic} {_show(c.before)}"
+    elif c.kind == "deprecated":
+        what = f"deprecated {c.topic}, replaced by {c.after or '(nothing)'}"
+    elif c.kind == "restored":
+        what = f"restored {c.topic}"
+    elif c.kind == "id-changed":
+        what = f"id changed {c.before} -> {c.after}"
+    elif c.kind == "moved":
+        what = f"moved {c.topic}: parents {_show(c.before)} -> {_show(c.after)}"
+    elif c.kind == "relabelled":
+        what = f"relabelled {c.topic}{lang}: {_show(c.before)} -> {_show(c.after)}"
+    elif c.kind == "alias-added":
+        what = f"alias added to {c.topic}{lang}: {_show(c.after)}"
+    elif c.kind == "alias-removed":
+        what = f"alias removed from {c.topic}{lang}: {_show(c.before)}"
+    elif c.kind == "notation-changed":
+        what = f"notation of {c.topic}: {_show(c.before)} -> {_show(c.after)}"
+    else:
+        what = f"replacement of {c.topic}: {c.before or '(nothing)'} -> {c.after or '(nothing)'}"
+    return f"{what}  ({c.cause})"
+
+
+def read_topics(path: Path) -> dict[str, dict]:
+    """Topics of a ``topics.jsonl`` file by id; a bad line raises with file and line."""
+    path = Path(path)
+    out: dict[str, dict] = {}
+    try:
+        fh = path.open(encoding="utf-8")
+    except FileNotFoundError:
+        raise DiffError(f"{path}: no such topic file") from None
+    with fh:
+        for n, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                t = json.loads(line)
+            except json.JSONDecodeError as exc:
+                raise DiffError(f"{path}:{n}: not a JSON object ({exc.msg})") from None
+            if not isinstance(t, dict) or not isinstance(t.get("id"), str):
+                raise DiffError(f"{path}:{n}: a topic needs a string 'id'")
+            if t["id"] in out:
+                raise DiffError(f"{path}:{n}: topic id {t['id']!r} appears twice")
+            out[t["id"]] = t
+    return out
+
+
+# --- attribution ---------------------------------------------------------------
+
+#: curation edit action -> change kinds it can make (and the topic keys it names)
+_EDIT_KINDS = {
+    "add_alias": ("alias-added",),
+    "remove_alias": ("alias-removed",),
+    "set_label": ("relabelled",),
+    "exclude": ("removed", "deprecated"),
+    "exclude_subtree": ("removed", "deprecated"),
+    "add_parent": ("moved",),
+    "remove_parent": ("moved",),
+    "merge": ("deprecated", "alias-added", "replacement-changed", "removed"),
+    "add_topic": ("added", "relabelled", "alias-added", "moved"),
+}
+_TOPIC_KEYS = ("topic", "target", "into", "id", "parent", "topics")
+
+
+def _edit_effects(report: dict | None) -> set[tuple[str, str]]:
+    """(topic id, change kind) pairs that the applied curation edits of a build can make."""
+    out: set[tuple[str, str]] = set()
+    applied = ((report or {}).get("curation") or {}).get("applied") or []
+    for edit in applied:
+        if not isinstance(edit, dict):
+            continue
+        action = str(edit.get("action") or edit.get("edit") or "").replace("-", "_")
+        kinds = _EDIT_KINDS.get(action)
+        if kinds is None:
+            continue
+        ids = set()
+        for key in _TOPIC_KEYS:
+            v = edit.get(key)
+            if isinstance(v, str):
+                ids.add(v)
+            elif isinstance(v, list):
+                ids.update(x for x in v if isinstance(x, str))
+        for extra in edit.get("affected") or []:
+            if isinstance(extra, str):
+                ids.add(extra)
+        # an edit on one topic can move its children or relabel through a merge
+        for i in ids:
+            for k in kinds:
+                out.add((i, k))
+    return out
+
+
+def _cause(effects: set[tuple[str, str]], kind: str, topics, origin_curation: bool) -> str:
+    if origin_curation or any((t, kind) in effects for t in topics):
+        return "curation"
+    return "graph"
+
+
+# --- the diff ------------------------------------------------------------------
+
+
+def _labels_diff(tid, old, new, cause):
+    out = []
+    a, b = old.get("labels") or {}, new.get("labels") or {}
+    for lang in sorted(set(a) | set(b)):
+        if a.get(lang) != b.get(lang):
+            out.append(("relabelled", lang, a.get(lang), b.get(lang)))
+    aa, ba = old.get("aliases") or {}, new.get("aliases") or {}
+    for lang in sorted(set(aa) | set(ba)):
+        before, after = set(aa.get(lang) or []), set(ba.get(lang) or [])
+        for alias in sorted(after - before):
+            out.append(("alias-added", lang, None, alias))
+        for alias in sorted(before - after):
+            out.append(("alias-removed", lang, alias, None))
+    return [
+        Change(kind, tid, (tid,), cause(kind, [tid]), lang, before, after)
+        for kind, lang, before, after in out
+    ]
+
+
+def _label(t: dict) -> str | None:
+    labels = t.get("labels") or {}
+    return labels.get("en") or labels.get("") or (labels[min(labels)] if labels else None)
+
+
+def diff_topics(
+    old: dict[str, dict],
+    new: dict[str, dict],
+    old_report: dict | None = None,
+    new_report: dict | None = None,
+    old_name: str = "old",
+    new_name: str = "new",
+) -> VocabDiff:
+    """Compare two topic maps (id -> topic object as in ``topics.jsonl``).
+
+    >>> a = {"x": {"id": "x", "labels": {"en": "X"}, "parents": [], "status": "active"}}
+    >>> b = {"x": {"id": "x", "labels": {"en": "Ex"}, "parents": [], "status": "active"}}
+    >>> [c.kind for c in diff_topics(a, b).changes]
+    ['relabelled']
+    """
+    effects = _edit_effects(old_report) ^ _edit_effects(new_report)
+    # an edit applied on both sides changes nothing between them; one applied on one
+    # side only (added, removed or gone stale) explains the difference
+
+    def cause_for(topic_obj):
+        def cause(kind, ids):
+            return _cause(effects, kind, ids, topic_obj.get("origin") == "curation")
+
+        return cause
+
+    changes: list[Change] = []
+    active = lambda t: t.get("status", "active") != "deprecated"  # noqa: E731
+
+    # the same source under another id: an id change, not a removal and an addition
+    gone = [i for i in old if i not in new]
+    fresh = [i for i in new if i not in old]
+    by_source_new = {}
+    for i in fresh:
+        s = new[i].get("source")
+        if s:
+            by_source_new.setdefault(s, []).append(i)
+    renamed: dict[str, str] = {}
+    for i in sorted(gone):
+        s = old[i].get("source")
+        if s and len(by_source_new.get(s, [])) == 1:
+            renamed[i] = by_source_new[s][0]
+    for o, n in sorted(renamed.items()):
+        cause = cause_for(new[n])
+        changes.append(Change("id-changed", n, (o, n), cause("id-changed", [o, n]), None, o, n))
+
+    for i in sorted(gone):
+        if i in renamed:
+            continue
+        cause = cause_for(old[i])
+        changes.append(
+            Change("removed", i, (i,), cause("removed", [i]), None, _label(old[i]), None)
+        )
+    renamed_to = set(renamed.values())
+    for i in sorted(fresh):
+        if i in renamed_to:
+            continue
+        t = new[i]
+        if not active(t):
+            continue  # born and deprecated between the two: never seen from the old side
+        cause = cause_for(t)
+        changes.append(Change("added", i, (i,), cause("added", [i]), None, None, _label(t)))
+
+    pairs = [(i, i) for i in sorted(set(old) & set(new))] + sorted(renamed.items())
+    for oi, ni in pairs:
+        a, b = old[oi], new[ni]
+        cause = cause_for(b)
+        if active(a) and not active(b):
+            rep = b.get("replaced_by")
+            ids = (ni, rep) if rep else (ni,)
+            changes.append(Change("deprecated", ni, ids, cause("deprecated", ids), None, None, rep))
+            continue
+        if not active(a) and active(b):
+            changes.append(Change("restored", ni, (ni,), cause("restored", [ni])))
+        elif not active(a) and not active(b):
+            if a.get("replaced_by") != b.get("replaced_by"):
+                ids = tuple(x for x in (ni, a.get("replaced_by"), b.get("replaced_by")) if x)
+                changes.append(
+                    Change(
+                        "replacement-changed",
+                        ni,
+                        ids,
+                        cause("replacement-changed", ids),
+                        None,
+                        a.get("replaced_by"),
+                        b.get("replaced_by"),
+                    )
+                )
+            continue
+        pa, pb = sorted(a.get("parents") or []), sorted(b.get("parents") or [])
+        if pa != pb:
+            ids = tuple(sorted({ni, *pa, *pb}))
+            changes.append(Change("moved", ni, ids, cause("moved", [ni, *pa, *pb]), None, pa, pb))
+        changes.extend(_labels_diff(ni, a, b, cause))
+        if a.get("notation") != b.get("notation"):
+            changes.append(
+                Change(
+                    "notation-changed",
+                    ni,
+                    (ni,),
+                    cause("notation-changed", [ni]),
+                    None,
+                    a.get("notation"),
+                    b.get("notation"),
+                )
+            )
+    changes.sort(key=Change.sort_key)
+    return VocabDiff(old_name, new_name, changes)
+
+
+def _topic_file(side: Path) -> Path:
+    if side.is_file():
+        return side
+    if (side / "topics.jsonl").is_file():
+        return side / "topics.jsonl"
+    raise DiffError(f"{side}: not a release or build folder (no topics.jsonl in it)")
+
+
+def read_report(folder: Path) -> dict | None:
+    path = folder / "report.json"
+    if not path.is_file():
+        return None
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except json.JSONDecodeError as exc:
+        raise DiffError(f"{path}:{exc.lineno}: malformed report ({exc.msg})") from None
+
+
+def diff_folders(a: Path | str, b: Path | str) -> VocabDiff:
+    """Diff two release or build folders (or two ``topics.jsonl`` files)."""
+    fa, fb = _topic_file(Path(a)), _topic_file(Path(b))
+    return diff_topics(
+        read_topics(fa),
+        read_topics(fb),
+        read_report(fa.parent),
+        read_report(fb.parent),
+        str(a),
+        str(b),
+    )

@@ -1,0 +1,216 @@
+"""Diffs, version rules and changelogs, on topic files crafted per the build contract."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from kgkit.release.changelog import changelog_data, changelog_markdown
+from kgkit.release.diffing import DiffError, diff_folders, diff_topics, read_topics
+from kgkit.release.versioning import (
+    NothingChangedError,
+    Version,
+    VersionError,
+    list_releases,
+    next_version,
+)
+
+
+def topic(tid, en, parents=(), aliases=None, **kw):
+    t = {
+        "aliases": aliases or {},
+        "curie": f"ex:{tid}",
+        "depth": 0 if not parents else 1,
+        "flags": [],
+        "graph": "tidewell",
+        "id": tid,
+        "iri": f"http://example.org/vocab/sport/{tid}",
+        "labels": {"en": en},
+        "notation": None,
+        "origin": "graph",
+        "parents": sorted(parents),
+        "replaced_by": None,
+        "same_as": [],
+        "source": f"http://example.org/graph/{tid}",
+        "status": "active",
+    }
+    t.update(kw)
+    return t
+
+
+def base():
+    return {
+        t["id"]: t
+        for t in [
+            topic("sport", "sport"),
+            topic("paddle-sports", "paddle sports", ["sport"]),
+            topic("canoe-polo", "canoe polo", ["paddle-sports"], {"en": ["kayak polo"]}),
+            topic("sailing", "sailing", ["sport"]),
+        ]
+    }
+
+
+def kinds(d):
+    return [(c.kind, c.topic) for c in d.changes]
+
+
+def test_nothing_changed_lists_nothing():
+    d = diff_topics(base(), base())
+    assert d.changes == [] and d.is_empty()
+    with pytest.raises(NothingChangedError, match="no topic changed since release 1.0.0"):
+        next_version(Version(1, 0, 0), d.kinds())
+    # explicitly given: allowed, still has to be greater
+    assert next_version(Version(1, 0, 0), d.kinds(), "1.0.1") == (Version(1, 0, 1), None)
+
+
+def test_label_and_alias_changes_are_patch():
+    new = base()
+    new["sailing"]["labels"] = {"en": "sailing", "de": "Segeln"}
+    new["canoe-polo"]["aliases"] = {"en": ["canoe ball"]}
+    d = diff_topics(base(), new)
+    assert [(c.kind, c.topic, c.language, c.before, c.after) for c in d.changes] == [
+        ("relabelled", "sailing", "de", None, "Segeln"),
+        ("alias-added", "canoe-polo", "en", None, "canoe ball"),
+        ("alias-removed", "canoe-polo", "en", "kayak polo", None),
+    ]
+    assert next_version(Version(1, 2, 3), d.kinds()) == (Version(1, 2, 4), "patch")
+
+
+def test_added_or_moved_is_minor():
+    new = base()
+    new["rowing"] = topic("rowing", "rowing", ["sport"])
+    new["sailing"]["parents"] = ["paddle-sports"]
+    d = diff_topics(base(), new)
+    assert kinds(d) == [("added", "rowing"), ("moved", "sailing")]
+    moved = d.changes[1]
+    assert moved.before == ["sport"] and moved.after == ["paddle-sports"]
+    assert moved.ids == ("paddle-sports", "sailing", "sport")
+    assert next_version(Version(1, 2, 3), d.kinds()) == (Version(1, 3, 0), "minor")
+
+
+def test_removed_deprecated_or_renamed_is_major():
+    new = base()
+    del new["sailing"]
+    new["canoe-polo"].update(status="deprecated", replaced_by="paddle-sports")
+    # same source, new id (a clash suffix appeared): an id change, not remove + add
+    new["sport-1a2b3c4d"] = dict(new.pop("sport"), id="sport-1a2b3c4d")
+    d = diff_topics(base(), new)
+    assert kinds(d) == [
+        ("removed", "sailing"),
+        ("deprecated", "canoe-polo"),
+        ("id-changed", "sport-1a2b3c4d"),
+    ]
+    assert d.changes[1].ids == ("canoe-polo", "paddle-sports")
+    assert d.changes[2].before == "sport" and d.changes[2].after == "sport-1a2b3c4d"
+    assert next_version(Version(1, 2, 3), d.kinds()) == (Version(2, 0, 0), "major")
+
+
+def test_deprecated_topic_changes_only_its_replacement():
+    old = base()
+    old["canoe-polo"].update(status="deprecated", replaced_by="paddle-sports")
+    new = base()
+    new["canoe-polo"].update(status="deprecated", replaced_by="sport", labels={"en": "x"})
+    d = diff_topics(old, new)
+    assert [(c.kind, c.before, c.after) for c in d.changes] == [
+        ("replacement-changed", "paddle-sports", "sport")
+    ]
+    new["canoe-polo"].update(status="active", replaced_by=None, labels={"en": "canoe polo"})
+    assert kinds(diff_topics(old, new)) == [("restored", "canoe-polo")]
+
+
+def test_attribution_to_curation():
+    new = base()
+    new["canoe-polo"]["aliases"] = {"en": ["kayak polo", "polo on water"]}
+    new["sailing"]["labels"] = {"en": "yachting"}
+    new["harbour-races"] = topic("harbour-races", "harbour races", ["sailing"], origin="curation")
+    report = {
+        "curation": {
+            "applied": [{"action": "add_alias", "topic": "canoe-polo", "alias": "polo on water"}],
+            "stale": [],
+        }
+    }
+    d = diff_topics(base(), new, None, report)
+    causes = {(c.kind, c.topic): c.cause for c in d.changes}
+    assert causes == {
+        ("added", "harbour-races"): "curation",
+        ("alias-added", "canoe-polo"): "curation",
+        ("relabelled", "sailing"): "graph",
+    }
+    # the same edit applied on both sides explains nothing between them
+    d2 = diff_topics(base(), new, report, report)
+    assert {(c.kind, c.topic): c.cause for c in d2.changes}[("alias-added", "canoe-polo")] == (
+        "graph"
+    )
+
+
+def test_semver_order_matches_reference_library():
+    # ordering checked against the `packaging` library (PyPA), whose release-segment
+    # order agrees with Semantic Versioning 2.0.0 section 11 for plain X.Y.Z versions
+    from packaging.version import Version as Reference
+
+    texts = ["1.0.0", "1.0.10", "1.0.2", "1.10.0", "1.9.9", "2.0.0", "10.0.0", "0.9.0"]
+    assert sorted(texts, key=Version.parse) == sorted(texts, key=Reference)
+    for bad in ["1.0", "01.0.0", "1.0.0-rc.1", "v1.0.0", "1.0.0+b"]:
+        with pytest.raises(VersionError):
+            Version.parse(bad)
+    with pytest.raises(VersionError, match="not greater than the previous release 2.0.0"):
+        next_version(Version(2, 0, 0), ["added"], "1.9.0")
+    assert next_version(None, []) == (Version(1, 0, 0), None)
+
+
+def write_jsonl(folder, topics):
+    folder.mkdir(parents=True)
+    lines = [json.dumps(topics[i], sort_keys=True, ensure_ascii=False) for i in sorted(topics)]
+    (folder / "topics.jsonl").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return folder
+
+
+def test_diff_folders_and_errors(tmp_path):
+    a = write_jsonl(tmp_path / "1.0.0", base())
+    new = base()
+    new["sailing"]["labels"] = {"en": "sail racing"}
+    b = write_jsonl(tmp_path / "build", new)
+    d = diff_folders(a, b)
+    assert d.to_json()["changes"] == [
+        {
+            "kind": "relabelled",
+            "topic": "sailing",
+            "ids": ["sailing"],
+            "cause": "graph",
+            "language": "en",
+            "before": "sailing",
+            "after": "sail racing",
+        }
+    ]
+    assert 'relabelled sailing [en]: "sailing" -> "sail racing"  (graph)' in d.to_text()
+    (tmp_path / "bad").mkdir()
+    (tmp_path / "bad" / "topics.jsonl").write_text('{"id": "a"}\n{"id": \n')
+    with pytest.raises(DiffError, match=r"bad/topics.jsonl:2: not a JSON object"):
+        read_topics(tmp_path / "bad" / "topics.jsonl")
+    with pytest.raises(DiffError, match="no topics.jsonl in it"):
+        diff_folders(tmp_path, b)
+    (tmp_path / "1.10.0").mkdir()
+    (tmp_path / "1.2.0").mkdir()
+    assert [str(v) for v in list_releases(tmp_path)] == ["1.0.0", "1.2.0", "1.10.0"]
+
+
+def test_changelog_markdown():
+    new = base()
+    del new["sailing"]
+    new["rowing"] = topic("rowing", "rowing", ["sport"])
+    d = diff_topics(base(), new)
+    version, level = next_version(Version(1, 0, 0), d.kinds())
+    stale = [{"action": "add_alias", "topic": "ghost", "reason": "no topic 'ghost'"}]
+    data = changelog_data("sport", str(version), "1.0.0", d, level, False, stale)
+    assert data["counts"] == {"removed": 1, "added": 1}
+    assert changelog_markdown(data, d) == (
+        "# sport 2.0.0\n\n"
+        "Changes since 1.0.0. Version: major (a topic was removed or deprecated, "
+        "or an id changed).\n\n"
+        "| change | topics |\n|---|---|\n| removed | 1 |\n| added | 1 |\n\n"
+        '## Removed\n\n- removed sailing "sailing"  (graph)\n\n'
+        '## Added\n\n- added rowing "rowing"  (graph)\n\n'
+        "## Curation edits that no longer apply\n\n"
+        '- action: "add_alias", topic: "ghost" (no topic \'ghost\')\n'
+    )
