@@ -15,8 +15,10 @@ from __future__ import annotations
 
 import contextlib
 import fcntl
+import gc
 import os
 import re
+import sys
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -103,7 +105,13 @@ def open_store(path: Path, write: bool = False) -> Iterator[ox.Store]:
             if write:
                 store.flush()
         finally:
+            # RocksDB's own lock goes only when the Store object is freed; a reference
+            # cycle (an exception's traceback, say) would keep it past this point, and the
+            # next open in this process would be refused
+            extra = sys.getrefcount(store) > 2
             del store
+            if extra:
+                gc.collect()
     finally:
         lock.close()
 

@@ -61,6 +61,7 @@ __all__ = [
 ]
 
 DEFAULT_BATCH = 1_000_000
+_AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a batch
 
 
 @dataclass(frozen=True)
@@ -230,7 +231,6 @@ class _Run:
         self.filtered = 0
         self.rejected = 0
         self.scope = scope  # blank nodes are scoped per import and file
-        self._blank: dict[str, ox.BlankNode] = {}
 
     # -- errors ---------------------------------------------------------
     def bad(self, label: str, line: int | None, column: int | None, cause: str, text: str):
@@ -247,12 +247,10 @@ class _Run:
             self.store.bulk_load(input=data, format=ox.RdfFormat.N_TRIPLES, to_graph=self.content)
 
     def _scoped(self, term):
+        # a label maps to the same node in every batch of a file (no table kept: memory
+        # stays flat however many blank nodes a dump holds)
         if isinstance(term, ox.BlankNode):
-            node = self._blank.get(term.value)
-            if node is None:
-                node = ox.BlankNode(f"{self.scope}{term.value}")
-                self._blank[term.value] = node
-            return node
+            return ox.BlankNode(f"{self.scope}{term.value}")
         return term
 
     def load_quads(self, quads) -> None:
@@ -267,7 +265,8 @@ def _solo_error(line: bytes, fmt: ox.RdfFormat) -> SyntaxError | None:
         for _ in ox.parse(input=line, format=fmt):
             pass
     except SyntaxError as exc:
-        return exc
+        # without its traceback: a kept traceback holds the frames (and the store) alive
+        return exc.with_traceback(None)
     return None
 
 
@@ -323,13 +322,13 @@ def _load_rdf_lines(
         run.read += sum(1 for x in lines if _is_statement(x))
         _bulk_segments(run, label, first, lines, data, fmt)
         return
-    pos = 0
+    pos, window = 0, len(lines)
     while pos < len(lines):
-        seg = lines[pos:] if pos else lines
+        seg = lines[pos : pos + window] if pos else lines
         quads: list[ox.Quad] = []
         bad = None
         try:
-            for q in ox.parse(input=b"".join(seg) if pos else data, format=fmt):
+            for q in ox.parse(input=data if seg is lines else b"".join(seg), format=fmt):
                 quads.append(q)
         except SyntaxError as exc:
             bad = _locate(seg, exc, fmt)
@@ -342,21 +341,32 @@ def _load_rdf_lines(
         run.filtered += len(quads) - len(kept)
         run.load_quads(kept)
         if bad is None:
-            break
+            pos += len(seg)
+            continue
         idx, col, cause = bad
         run.bad(label, first + pos + idx, col, cause, _decode(seg[idx]))
         pos += idx + 1
+        # after an error, go on in bounded windows: re-parsing the whole rest of a large
+        # batch after every bad line would be quadratic in a dump with many of them
+        window = _AFTER_ERROR_WINDOW
 
 
 def _bulk_segments(
     run: _Run, label: str, first: int, lines: list[bytes], data: bytes, fmt: ox.RdfFormat
 ) -> None:
-    pos = 0
+    """Load lines through the store's own parser; on an error, reject the bad line, go on.
+
+    ``run.read`` already counts every statement line of ``lines``. A failed bulk load
+    may have written part of the segment: the statements before the bad line are loaded
+    again (the store keeps one copy), the bad line is set aside, loading resumes after it.
+    """
+    pos, window = 0, len(lines)
     while pos < len(lines):
-        seg = lines[pos:] if pos else lines
+        seg = lines[pos : pos + window] if pos else lines
         try:
-            run.load_text(b"".join(seg) if pos else data)
-            return
+            run.load_text(data if seg is lines else b"".join(seg))
+            pos += len(seg)
+            continue
         except SyntaxError as exc:
             idx, col, cause = _locate(seg, exc, fmt)
         run.read -= 1  # run.bad counts the bad statement again
@@ -364,6 +374,7 @@ def _bulk_segments(
         if idx:
             _bulk_segments(run, label, first + pos, seg[:idx], b"".join(seg[:idx]), fmt)
         pos += idx + 1
+        window = _AFTER_ERROR_WINDOW
 
 
 def _load_records(run: _Run, label: str, first: int, lines: list[bytes], terms: _Terms) -> None:
@@ -526,7 +537,6 @@ def import_into_store(
     try:
         for n, (label, fmt_name) in enumerate(zip(inputs, formats, strict=True), 1):
             run.scope = f"k{import_id}f{n}x"
-            run._blank = {}
             source = open_source(label)
             try:
                 _load_source(run, source, fmt_name, ws, progress)
@@ -619,8 +629,6 @@ def import_files(
     """
     if not inputs:
         raise KgkitError("nothing to import: give one or more files, or - for standard input")
-    if opts.on_error == "skip" and opts.rejects is None:
-        opts = ImportOptions(**{**opts.__dict__, "rejects": None})
     groups: list[tuple[str, list[str]]]
     if opts.graph:
         groups = [(opts.graph, list(inputs))]
@@ -633,6 +641,12 @@ def import_files(
                 "give --graph to import them together"
             )
         groups = [(n, [x]) for n, x in zip(names, inputs, strict=True)]
+        if len(groups) > 1 and opts.rejects is not None:
+            raise KgkitError(
+                "--rejects names one file but these inputs make several imports; "
+                "give --graph to import them together, or leave out --rejects "
+                "(each graph then gets .kgkit/rejects/GRAPH.rejects.txt)"
+            )
     for label in inputs:
         detect_format(label, opts.format)
         if label != "-" and not Path(label).is_file():

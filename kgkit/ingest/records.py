@@ -176,7 +176,8 @@ def record_to_triples(record: object, terms: _Terms) -> list[ox.Triple]:
 def parse_record_line(line: bytes, terms: _Terms) -> list[ox.Triple]:
     """Decode one line of entity-record JSON Lines into triples."""
     try:
-        record = json.loads(line)
+        # without its line ending, so that an error at the end has this line's column
+        record = json.loads(line.rstrip(b"\r\n"))
     except json.JSONDecodeError as exc:
         raise RecordError(f"malformed JSON: {exc.msg}", exc.colno) from None
     except UnicodeDecodeError:
