@@ -1,0 +1,56 @@
+"""``kgkit compile``: build a vocabulary from its spec."""
+
+from __future__ import annotations
+
+import time
+
+import click
+
+from kgkit.cli.common import echo_json, get_workspace, is_terminal
+from kgkit.vocab.compile import compile_vocabulary
+
+
+@click.command("compile")
+@click.argument("spec", type=click.Path(dir_okay=False, path_type=str))
+@click.option("--strict", is_flag=True, help="A stale curation edit is an error, not a warning.")
+@click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@click.pass_context
+def compile_command(ctx, spec, strict, as_json, quiet):
+    """Compile the vocabulary of SPEC (vocab/NAME.yaml) into vocab/NAME/build/.
+
+    Selects topics with the spec's templates, applies the curation file, repairs
+    the hierarchy, cleans aliases, prunes, and writes topics.jsonl, topics.yaml,
+    skos.ttl, lexicon.tsv and the report. A failed compile leaves the previous
+    build as it was.
+
+    Example: kgkit compile vocab/sport.yaml --json
+    """
+    ws = get_workspace(ctx)
+    t0 = time.perf_counter()
+    show = not quiet and is_terminal()
+
+    def progress(step: str) -> None:
+        if show:
+            click.echo(f"\r\033[K{time.perf_counter() - t0:6.1f}s  {step}", err=True, nl=False)
+
+    try:
+        result = compile_vocabulary(ws, spec, strict=strict, progress=progress)
+    finally:
+        if show:
+            click.echo("\r\033[K", err=True, nl=False)
+    s = result.summary
+    if not quiet:
+        click.echo(
+            f"compiled {s['name']}: {s['topics']} topics, {s['aliases']} aliases, "
+            f"{s['dropped']} topics and {s['dropped_aliases']} aliases dropped, "
+            f"{s['cycles_broken']} cycle links broken, {s['ambiguous_keys']} ambiguous keys"
+        )
+        if s["stale"]:
+            click.echo(f"{s['stale']} stale curation edit(s): see report.txt", err=True)
+        click.echo(f"wrote {s['output']}")
+    if as_json:
+        echo_json({**s, "seconds": round(time.perf_counter() - t0, 3)})
+
+
+COMMANDS = [compile_command]

@@ -1,0 +1,393 @@
+"""``compile_vocabulary``: from a spec and the store to the files in ``vocab/<name>/build/``.
+
+The steps, in order: validate the spec and the curation file; select topics
+(template runs, ``include``); fetch their labels, aliases and parent links;
+give each a stable id; apply the curation overlay; exclude subtrees; choose
+preferred labels; prune; repair the hierarchy (restrict, reattach, break cycles,
+reduce, depth); clean aliases and settle ambiguous match keys; write the files.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+from kgkit.errors import KgkitError, SpecError
+from kgkit.vocab.aliases import (
+    choose_labels,
+    clean_aliases,
+    lang_matches,
+    match_key,
+    resolve_ambiguity,
+)
+from kgkit.vocab.curation import Edit, apply_curation, load_curation
+from kgkit.vocab.hierarchy import repair_hierarchy, restrict_to, subtree
+from kgkit.vocab.model import Topic, assign_ids
+from kgkit.vocab.prune import prune_topics
+from kgkit.vocab.select import Fetched, fetch_entities, run_popularity, select_topics
+from kgkit.vocab.spec import OUTPUTS, VocabSpec, load_spec
+from kgkit.vocab.writers import (
+    jsonl_text,
+    lexicon_text,
+    report_json_text,
+    report_text,
+    skos_text,
+    write_build,
+    yaml_text,
+)
+from kgkit.workspace import Workspace
+
+__all__ = ["Build", "CompileResult", "build_vocabulary", "compile_vocabulary"]
+
+
+@dataclass
+class Build:
+    """A compiled vocabulary in memory: topic records, lexicon rows, report."""
+
+    spec: VocabSpec
+    records: list[dict]
+    lexicon: list[tuple]
+    report: dict
+    label_tags: dict[str, dict[str, str]]
+
+    def files(self) -> dict[str, str]:
+        """File name -> text, for the outputs the spec asks for (the report always)."""
+        s = self.spec
+        out = {
+            "report.json": report_json_text(self.report),
+            "report.txt": report_text(s.name, self.report),
+        }
+        if "jsonl" in s.outputs:
+            out[OUTPUTS["jsonl"]] = jsonl_text(self.records)
+        if "yaml" in s.outputs:
+            scheme = {"iri": s.scheme, "name": s.name, "namespace": s.namespace, "title": s.title}
+            out[OUTPUTS["yaml"]] = yaml_text(scheme, self.records)
+        if "skos" in s.outputs:
+            out[OUTPUTS["skos"]] = skos_text(s.scheme, s.title, self.records, self.label_tags)
+        if "lexicon" in s.outputs:
+            out[OUTPUTS["lexicon"]] = lexicon_text(self.lexicon)
+        return out
+
+
+@dataclass
+class CompileResult:
+    """What ``compile_vocabulary`` did: where it wrote, the summary, the full report."""
+
+    output: Path
+    summary: dict
+    report: dict
+    files: list[str]
+
+
+def _resolver(ws: Workspace, topics: dict[str, Topic], ids: dict[str, str]):
+    def resolve(ref: str) -> str | None:
+        if ref in topics:
+            return ref
+        if ":" not in ref:
+            return None
+        try:
+            iri = ws.expand(ref)
+        except KgkitError:
+            return None
+        return ids.get(iri, iri)
+
+    return resolve
+
+
+def build_vocabulary(
+    ws: Workspace,
+    spec: VocabSpec,
+    selected: list[str],
+    fetched: Fetched,
+    edits: list[Edit] = (),
+    popularity: dict[str, float] | None = None,
+    strict: bool = False,
+) -> Build:
+    """Compile in memory from already fetched data (no store needed)."""
+    ids, clashes = assign_ids(selected)
+    topics: dict[str, Topic] = {}
+    for src in selected:
+        t = Topic(id=ids[src], source=src)
+        t.graphs = set(fetched.graphs.get(src, ()))
+        t.labels = list(fetched.labels.get(src, ()))
+        t.aliases = list(fetched.aliases.get(src, ()))
+        t.notations = set(fetched.notations.get(src, ()))
+        t.same_as = set(fetched.same_as.get(src, ()))
+        topics[t.id] = t
+
+    def node(iri: str) -> str:
+        return ids.get(iri, iri)
+
+    graph_parents: dict[str, list[str]] = {
+        node(s): sorted({node(p) for p in ps}) for s, ps in fetched.parents.items()
+    }
+
+    # curation overlay: after selection, before pruning
+    lang_rules = spec.languages
+    curated = apply_curation(
+        list(edits),
+        topics,
+        graph_parents,
+        _resolver(ws, topics, ids),
+        lambda t: choose_labels(t.labels, lang_rules, t.label_override)[0],
+    )
+    if strict and curated.stale:
+        s = curated.stale[0]
+        where = next((e.line for e in edits if e.index == s["edit"]), None)
+        raise SpecError(
+            f"{spec.curation}{':' + str(where) if where else ''}: edit {s['edit']} "
+            f"({s['action']} {s['target']}) is stale: {s['reason']} "
+            f"({len(curated.stale)} stale edit(s) in all)"
+        )
+
+    dropped: dict[str, str] = {}
+    active = {tid for tid, t in topics.items() if t.status == "active"}
+
+    # exclusions: the topic and its subtree, unless reachable another way
+    targets: dict[str, str] = {}
+    subtree_roots: dict[str, str] = {}
+    for iri in spec.exclude:
+        tid = node(iri)
+        if tid in active:
+            targets.setdefault(tid, "excluded")
+            subtree_roots.setdefault(tid, "excluded")
+    for tid, with_subtree, index in curated.excluded:
+        targets.setdefault(tid, f"excluded-by-curation:edit-{index}")
+        if with_subtree:
+            subtree_roots.setdefault(tid, f"excluded-by-curation:edit-{index}")
+    if targets:
+        parents0, _, _ = restrict_to(graph_parents, active)
+        children: dict[str, list[str]] = {}
+        for c, ps in parents0.items():
+            for p in ps:
+                children.setdefault(p, []).append(c)
+        below: dict[str, str] = {}
+        for root in sorted(subtree_roots):
+            for n in sorted(subtree(children, [root]) - {root}):
+                below.setdefault(n, f"in-excluded-subtree:{root}")
+        seeds = active - set(targets) - set(below)
+        reached = subtree(
+            {n: [c for c in cs if c not in targets] for n, cs in children.items()}, seeds
+        )
+        for tid, reason in targets.items():
+            dropped[tid] = reason
+        for tid, reason in below.items():
+            if tid not in reached and tid not in targets:
+                dropped[tid] = reason
+        active -= set(dropped)
+
+    # preferred labels and required languages
+    prefs: dict[str, tuple[dict, dict, list]] = {}
+    missing_drop: dict[str, str] = {}
+    for tid in sorted(active | set(curated.merged)):
+        t = topics[tid]
+        pref, borrowed, others = choose_labels(t.labels, lang_rules, t.label_override)
+        prefs[tid] = (pref, borrowed, others)
+        for lang in borrowed:
+            t.flags.add(f"fallback-label:{lang}")
+        for req in lang_rules.required:
+            if not any(lang_matches(x, [req]) for x in pref):
+                t.flags.add(f"missing-language:{req}")
+                if lang_rules.missing == "drop" and tid not in missing_drop:
+                    missing_drop[tid] = req
+        if not pref:
+            t.flags.add("no-label")
+
+    # pruning, judged on one state of the hierarchy
+    rules = spec.prune
+    h0 = (
+        repair_hierarchy(graph_parents, active)
+        if rules.max_depth is not None or rules.min_descendants is not None
+        else None
+    )
+    pruned = prune_topics(
+        active,
+        rules,
+        h0,
+        {tid: topics[tid].source for tid in active},
+        missing_drop,
+        {src: n for src, n in fetched.instances.items()},
+        popularity,
+    )
+    dropped.update(pruned)
+    active -= set(pruned)
+
+    h = repair_hierarchy(graph_parents, active)
+
+    # aliases
+    names: dict[str, tuple[dict, dict]] = {}
+    dropped_aliases: list[dict] = []
+    for tid in sorted(active):
+        t = topics[tid]
+        pref, _borrowed, others = prefs[tid]
+        raw = t.aliases + [(lg, x, "label") for lg, x in others]
+        aliases, gone = clean_aliases(tid, pref, raw, spec.aliases, lang_rules, t.alias_removals)
+        names[tid] = (pref, aliases)
+        dropped_aliases.extend(gone)
+    ambiguous, gone, unlisted = resolve_ambiguity(names, spec.aliases.ambiguous)
+    dropped_aliases.extend(gone)
+
+    # records
+    records = []
+    label_tags: dict[str, dict[str, str]] = {}
+    for tid in sorted(active | set(curated.merged)):
+        t = topics[tid]
+        deprecated = tid in curated.merged
+        pref, borrowed, _ = prefs[tid]
+        if borrowed:
+            label_tags[tid] = dict(borrowed)
+        records.append(
+            {
+                "aliases": {} if deprecated else names[tid][1],
+                "curie": ws.compact(t.source) if t.source else None,
+                "depth": None if deprecated else h.depth[tid],
+                "flags": sorted(t.flags),
+                "graph": min(t.graphs) if t.graphs else None,
+                "id": tid,
+                "iri": spec.namespace + tid,
+                "labels": dict(sorted(pref.items())),
+                "notation": min(t.notations) if t.notations else None,
+                "origin": t.origin,
+                "parents": [] if deprecated else h.parents[tid],
+                "replaced_by": curated.merged.get(tid),
+                "same_as": sorted(t.same_as),
+                "source": t.source,
+                "status": "deprecated" if deprecated else "active",
+            }
+        )
+
+    # lexicon
+    rows = []
+    for r in records:
+        if r["status"] != "active":
+            continue
+        tid = r["id"]
+        for lang, text in r["labels"].items():
+            key = match_key(text)
+            if (tid, key) in unlisted:
+                dropped_aliases.append(
+                    {
+                        "alias": text,
+                        "language": lang,
+                        "reason": "ambiguous-preferred-label-unlisted",
+                        "topic": tid,
+                    }
+                )
+                continue
+            rows.append((key, tid, lang, "preferred", text))
+        for lang, texts in r["aliases"].items():
+            for text in texts:
+                rows.append((match_key(text), tid, lang, "alias", text))
+    rows = sorted(set(rows))
+    sharing: dict[str, set[str]] = {}
+    for key, tid, *_ in rows:
+        sharing.setdefault(key, set()).add(tid)
+    lexicon = [
+        (text, key, tid, lang, kind, len(sharing[key])) for key, tid, lang, kind, text in rows
+    ]
+
+    dropped_topics = sorted(
+        (
+            {"id": tid, "reason": reason, "source": topics[tid].source}
+            for tid, reason in dropped.items()
+        ),
+        key=lambda d: d["id"],
+    )
+    dropped_aliases.sort(key=lambda d: (d["topic"], d["language"], d["alias"], d["reason"]))
+
+    def by_reason(items, key):
+        return dict(sorted(Counter(i[key].split(":")[0] for i in items).items()))
+
+    active_records = [r for r in records if r["status"] == "active"]
+    counts = {
+        "added_by_curation": sum(1 for r in active_records if r["origin"] == "curation"),
+        "aliases": sum(len(v) for r in active_records for v in r["aliases"].values()),
+        "ambiguous_keys": len(ambiguous),
+        "curation_applied": len(curated.applied),
+        "curation_stale": len(curated.stale),
+        "cycles_broken": len(h.cycles),
+        "deprecated": len(records) - len(active_records),
+        "dropped_aliases": len(dropped_aliases),
+        "dropped_aliases_by_reason": by_reason(dropped_aliases, "reason"),
+        "dropped_topics": len(dropped_topics),
+        "dropped_topics_by_reason": by_reason(dropped_topics, "reason"),
+        "id_clashes": len(clashes),
+        "lexicon_rows": len(lexicon),
+        "max_depth": max((r["depth"] for r in active_records), default=0),
+        "new_roots": len(h.new_roots),
+        "reattached": len(h.reattached),
+        "reductions": len(h.reductions),
+        "roots": sum(1 for r in active_records if not r["parents"]),
+        "selected": len(selected),
+        "topics": len(active_records),
+    }
+    report = {
+        "ambiguous": ambiguous,
+        "counts": counts,
+        "curation": {"applied": curated.applied, "stale": curated.stale},
+        "cycles": h.cycles,
+        "dropped_aliases": dropped_aliases,
+        "dropped_topics": dropped_topics,
+        "id_clashes": clashes,
+        "new_roots": h.new_roots,
+        "reattached": h.reattached,
+        "reductions": h.reductions,
+        "spec": {"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
+    }
+    return Build(spec, records, lexicon, report, label_tags)
+
+
+def compile_vocabulary(
+    ws: Workspace,
+    spec_path: Path | str,
+    strict: bool = False,
+    progress: Callable[[str], None] | None = None,
+) -> CompileResult:
+    """Compile the vocabulary of the spec at ``spec_path`` into ``vocab/<name>/build/``.
+
+    Raises :class:`kgkit.errors.SpecError` for a bad spec or curation file (before
+    any work) and, with ``strict``, for a stale curation edit; the previous build
+    is then untouched.
+    """
+    from kgkit.query import connect
+
+    def step(text: str) -> None:
+        if progress:
+            progress(text)
+
+    spec = load_spec(ws, spec_path)
+    edits = load_curation(spec.curation) if spec.curation else []
+    with connect(ws) as backend:
+        step("selecting topics")
+        selected = select_topics(backend, spec, ws)
+        step(f"fetching {len(selected)} topics")
+        fetched = fetch_entities(
+            backend,
+            selected,
+            ws.profile,
+            graphs=spec.graphs,
+            types=spec.prune.min_instances is not None,
+            progress=step,
+        )
+        popularity = run_popularity(backend, spec) if spec.prune.min_popularity else None
+    step("compiling")
+    build = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict)
+    step("writing")
+    files = build.files()
+    out = write_build(spec.build_dir, files)
+    c = build.report["counts"]
+    summary = {
+        "aliases": c["aliases"],
+        "ambiguous_keys": c["ambiguous_keys"],
+        "cycles_broken": c["cycles_broken"],
+        "deprecated": c["deprecated"],
+        "dropped": c["dropped_topics"],
+        "dropped_aliases": c["dropped_aliases"],
+        "name": spec.name,
+        "output": str(out),
+        "stale": c["curation_stale"],
+        "topics": c["topics"],
+    }
+    return CompileResult(out, summary, build.report, sorted(files))

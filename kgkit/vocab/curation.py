@@ -1,0 +1,287 @@
+"""The curation overlay ``vocab/<name>.curation.yaml``: hand edits applied on every compile.
+
+The file holds one key, ``edits``, a list; each edit is a mapping with exactly one
+action key and an optional free ``note``::
+
+    edits:
+      - add_alias: {topic: canoe-polo, alias: kayak polo, language: en}
+        note: what the sports desk calls it
+
+Edits apply in file order, after selection and before pruning. An edit whose
+target is gone, or that would change nothing, is *stale*: it is reported, never
+dropped silently (``strict`` makes it an error).
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import yaml
+
+from kgkit.errors import SpecError
+from kgkit.vocab.aliases import match_key
+from kgkit.vocab.model import Topic
+from kgkit.vocab.spec import _key_lines
+
+__all__ = ["ACTIONS", "CurationResult", "Edit", "apply_curation", "load_curation"]
+
+#: action -> (required fields, optional fields)
+ACTIONS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    "add_alias": (("topic", "alias"), ("language",)),
+    "remove_alias": (("topic", "alias"), ("language",)),
+    "set_label": (("topic", "label"), ("language",)),
+    "exclude": (("topic",), ("subtree",)),
+    "add_parent": (("topic", "parent"), ()),
+    "remove_parent": (("topic", "parent"), ()),
+    "merge": (("topic", "into"), ()),
+    "add_topic": (("id", "labels"), ("aliases", "parents")),
+}
+_ID = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9._-]*$")
+_LANG = re.compile(r"^([A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*)?$")
+
+
+@dataclass(frozen=True)
+class Edit:
+    index: int  # position in the file, from 0
+    line: int | None
+    action: str
+    args: dict
+    note: str | None
+
+    @property
+    def target(self) -> str:
+        return str(self.args.get("topic", self.args.get("id")))
+
+    def describe(self) -> dict:
+        out = {"action": self.action, "edit": self.index, "target": self.target}
+        out.update({k: v for k, v in self.args.items() if k not in ("topic", "id")})
+        if self.note is not None:
+            out["note"] = self.note
+        return out
+
+
+def load_curation(path: Path) -> list[Edit]:
+    """Read and validate a curation file; a missing file means no edits."""
+    path = Path(path)
+    if not path.exists():
+        return []
+    try:
+        text = path.read_text(encoding="utf-8")
+        data = yaml.safe_load(text)
+    except UnicodeDecodeError:
+        raise SpecError(f"{path}: not UTF-8 text") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"{path}:{mark.line + 1}" if mark else str(path)
+        raise SpecError(f"{where}: {getattr(exc, 'problem', None) or 'malformed YAML'}") from None
+    lines = _key_lines(text)
+    if data is None:
+        return []
+
+    def fail(key: str, cause: str) -> SpecError:
+        line = lines.get(key)
+        if line is None and "." in key:
+            line = lines.get(key.rsplit(".", 1)[0])
+        return SpecError(f"{path}:{line}: key {key!r}: {cause}" if line else f"{path}: {cause}")
+
+    if not isinstance(data, dict) or set(data) - {"edits"}:
+        extra = sorted(set(data) - {"edits"}) if isinstance(data, dict) else None
+        if extra:
+            raise fail(str(extra[0]), "unknown key (a curation file holds only 'edits')")
+        raise SpecError(f"{path}: expected a mapping with the key 'edits'")
+    raw = data.get("edits") or []
+    if not isinstance(raw, list):
+        raise fail("edits", "must be a list of edits")
+    edits = []
+    for i, e in enumerate(raw):
+        key = f"edits[{i}]"
+        if not isinstance(e, dict):
+            raise fail(key, "an edit is a mapping with one action and an optional note")
+        actions = [k for k in e if k != "note"]
+        if len(actions) != 1 or actions[0] not in ACTIONS:
+            bad = next((k for k in actions if k not in ACTIONS), None)
+            cause = (
+                f"unknown action {bad!r}" if bad else "needs exactly one action"
+            ) + f" (actions: {', '.join(ACTIONS)})"
+            raise fail(key, cause)
+        action = actions[0]
+        args = e[action]
+        akey = f"{key}.{action}"
+        if not isinstance(args, dict):
+            raise fail(akey, "must be a mapping of the edit's fields")
+        required, optional = ACTIONS[action]
+        for f in args:
+            if f not in required + optional:
+                raise fail(
+                    f"{akey}.{f}", f"unknown field (fields: {', '.join(required + optional)})"
+                )
+        for f in required:
+            if f not in args:
+                raise fail(akey, f"needs {f!r}")
+        _check_fields(action, args, akey, fail)
+        note = e.get("note")
+        if note is not None and not isinstance(note, str):
+            raise fail(f"{key}.note", "must be text")
+        edits.append(Edit(i, lines.get(key), action, dict(args), note))
+    return edits
+
+
+def _check_fields(action: str, args: dict, key: str, fail) -> None:
+    for f in ("topic", "parent", "into", "alias", "label"):
+        if f in args and (not isinstance(args[f], str) or not args[f].strip()):
+            raise fail(f"{key}.{f}", "must be non-empty text")
+    if "language" in args and (
+        not isinstance(args["language"], str) or not _LANG.match(args["language"])
+    ):
+        raise fail(f"{key}.language", "must be a BCP 47 language tag or '' for none")
+    if "subtree" in args and not isinstance(args["subtree"], bool):
+        raise fail(f"{key}.subtree", "must be true or false")
+    if action == "add_topic":
+        if not isinstance(args["id"], str) or not _ID.match(args["id"]):
+            raise fail(f"{key}.id", "must be a topic id of letters, digits, '.', '_' or '-'")
+        labels = args["labels"]
+        if (
+            not isinstance(labels, dict)
+            or not labels
+            or not all(
+                isinstance(k, str) and _LANG.match(k) and isinstance(v, str) and v.strip()
+                for k, v in labels.items()
+            )
+        ):
+            raise fail(f"{key}.labels", "must map language tags to label text")
+        aliases = args.get("aliases", {})
+        if not isinstance(aliases, dict) or not all(
+            isinstance(k, str)
+            and _LANG.match(k)
+            and isinstance(v, list)
+            and all(isinstance(a, str) for a in v)
+            for k, v in aliases.items()
+        ):
+            raise fail(f"{key}.aliases", "must map language tags to lists of aliases")
+        parents = args.get("parents", [])
+        if not isinstance(parents, list) or not all(isinstance(p, str) for p in parents):
+            raise fail(f"{key}.parents", "must be a list of topic ids")
+
+
+@dataclass
+class CurationResult:
+    applied: list[dict]
+    stale: list[dict]
+    excluded: list[tuple[str, bool, int]]  # (topic, subtree, edit index)
+    merged: dict[str, str]  # merged topic -> the topic it went into
+
+
+def apply_curation(
+    edits: list[Edit],
+    topics: dict[str, Topic],
+    graph_parents: dict[str, list[str]],
+    resolve: Callable[[str], str | None],
+    preferred: Callable[[Topic], dict[str, str]],
+) -> CurationResult:
+    """Apply ``edits`` in order to ``topics`` and ``graph_parents`` (both changed in place).
+
+    ``resolve`` turns a reference (a topic id, a CURIE or an <IRI>) into a node of
+    ``graph_parents`` (a topic id, or the IRI of an entity outside the vocabulary),
+    or None. ``preferred`` gives a topic's current preferred labels.
+    """
+    applied, stale, excluded, merged = [], [], [], {}
+
+    def is_topic(ref: str) -> str | None:
+        node = resolve(ref)
+        return node if node in topics and topics[node].status == "active" else None
+
+    for e in edits:
+        a = e.args
+
+        def mark_stale(reason: str, e=e) -> None:
+            stale.append({**e.describe(), "reason": reason})
+
+        if e.action == "add_topic":
+            if a["id"] in topics:
+                mark_stale(f"a topic with id {a['id']!r} exists already (the graph has it now?)")
+                continue
+            t = Topic(id=a["id"], source=None, origin="curation")
+            for lang, text in sorted(a["labels"].items()):
+                t.labels.append((lang.lower(), text, -1))
+            for lang, texts in sorted((a.get("aliases") or {}).items()):
+                t.aliases.extend((lang.lower(), x, "curation") for x in texts)
+            missing = [p for p in a.get("parents", []) if is_topic(p) is None]
+            if missing:
+                mark_stale(f"parent {missing[0]!r} is not a topic of the vocabulary")
+                continue
+            topics[t.id] = t
+            graph_parents[t.id] = sorted({is_topic(p) for p in a.get("parents", [])})
+            applied.append(e.describe())
+            continue
+
+        tid = is_topic(a["topic"])
+        if tid is None:
+            mark_stale(f"topic {a['topic']!r} is not in the vocabulary")
+            continue
+        t = topics[tid]
+        lang = str(a.get("language", "")).lower()
+        if e.action == "add_alias":
+            key = match_key(a["alias"])
+            have = {match_key(x) for lg, x, _ in t.labels if lg == lang}
+            have |= {match_key(x) for lg, x, _ in t.aliases if lg == lang}
+            if key in have:
+                mark_stale("the topic has this name already")
+                continue
+            t.aliases.append((lang, a["alias"], "curation"))
+        elif e.action == "remove_alias":
+            key = match_key(a["alias"])
+            langs = {lang} if "language" in a else None
+            hit = [
+                x
+                for lg, x, _ in t.aliases
+                if match_key(x) == key and (langs is None or lg in langs)
+            ]
+            if not hit:
+                mark_stale("the topic has no such alias")
+                continue
+            t.alias_removals.add((lang if "language" in a else "*", key))
+        elif e.action == "set_label":
+            if preferred(t).get(lang) == a["label"]:
+                mark_stale("this is the preferred label already")
+                continue
+            t.label_override[lang] = a["label"]
+        elif e.action == "exclude":
+            excluded.append((tid, bool(a.get("subtree", True)), e.index))
+        elif e.action in ("add_parent", "remove_parent"):
+            parent = resolve(a["parent"])
+            ps = graph_parents.setdefault(tid, [])
+            if e.action == "add_parent":
+                if is_topic(a["parent"]) is None:
+                    mark_stale(f"parent {a['parent']!r} is not in the vocabulary")
+                    continue
+                if parent in ps:
+                    mark_stale("the topic has this parent already")
+                    continue
+                ps.append(parent)
+            else:
+                if parent is None or parent not in ps:
+                    mark_stale("the topic does not have this parent")
+                    continue
+                ps.remove(parent)
+        elif e.action == "merge":
+            into = is_topic(a["into"])
+            if into is None:
+                mark_stale(f"topic {a['into']!r} to merge into is not in the vocabulary")
+                continue
+            if into == tid:
+                mark_stale("a topic cannot be merged into itself")
+                continue
+            target = topics[into]
+            target.aliases.extend((lg, x, "merged") for lg, x, _ in t.labels)
+            target.aliases.extend((lg, x, "merged") for lg, x, _ in t.aliases)
+            t.status, t.replaced_by = "deprecated", into
+            for child, ps in graph_parents.items():
+                if tid in ps:
+                    ps[:] = sorted({into if p == tid else p for p in ps} - {child})
+            graph_parents[tid] = []
+            merged[tid] = into
+        applied.append(e.describe())
+    return CurationResult(applied, stale, excluded, merged)

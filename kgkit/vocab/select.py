@@ -1,0 +1,191 @@
+"""Selecting the topics of a vocabulary and fetching what the compiler needs about them.
+
+Selection runs the spec's template runs (:func:`kgkit.templates.run_template`).
+Fetching reads labels, aliases, parents, notations, same-as links and types one
+predicate at a time: on the embedded store a ``quads_for_pattern(None, p, None, g)``
+scan per content graph joined in Python, elsewhere one plain SPARQL query per
+predicate. (A VALUES list of hundreds of IRIs is far slower: see DESIGN.md,
+"Measured facts".)
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field
+
+import pyoxigraph as ox
+
+from kgkit.errors import KgkitError, SpecError
+from kgkit.vocab.spec import Selection, VocabSpec
+from kgkit.workspace import Profile, Workspace
+
+__all__ = ["Fetched", "fetch_entities", "run_popularity", "scan_predicate", "select_topics"]
+
+
+@dataclass
+class Fetched:
+    """What the graph says about the selected entities (keys: source IRIs)."""
+
+    labels: dict[str, list[tuple[str, str, int]]] = field(default_factory=dict)
+    aliases: dict[str, list[tuple[str, str, str]]] = field(default_factory=dict)
+    parents: dict[str, list[str]] = field(default_factory=dict)  # every entity of the graph
+    notations: dict[str, set[str]] = field(default_factory=dict)
+    same_as: dict[str, set[str]] = field(default_factory=dict)
+    graphs: dict[str, set[str]] = field(default_factory=dict)
+    instances: Counter = field(default_factory=Counter)
+
+
+def _graph_filter(backend, graphs: tuple[str, ...] | None) -> dict[str, str]:
+    """content graph IRI -> graph name, for the graphs the spec names (default all)."""
+    names = dict(getattr(backend, "graph_names", {}) or {})
+    if graphs is not None:
+        missing = [g for g in graphs if g not in names.values()]
+        if missing:
+            raise SpecError(
+                f"no graph named {missing[0]!r} in the store "
+                f"(graphs: {', '.join(sorted(names.values())) or 'none yet'})"
+            )
+        names = {iri: n for iri, n in names.items() if n in graphs}
+    return names
+
+
+def scan_predicate(backend, predicate: str, graphs: dict[str, str]) -> Iterator[tuple]:
+    """(graph name, subject IRI, object term) for every statement with ``predicate``.
+
+    Subjects that are blank nodes are skipped (a topic needs an IRI).
+    """
+    store = getattr(backend, "store", None)
+    pred = ox.NamedNode(predicate)
+    if store is not None:
+        for content_iri, name in sorted(graphs.items(), key=lambda kv: kv[1]):
+            for q in store.quads_for_pattern(None, pred, None, ox.NamedNode(content_iri)):
+                s = q.subject
+                if type(s) is ox.NamedNode:
+                    yield name, s.value, q.object
+        return
+    from kgkit.query import run_query
+
+    res = run_query(backend, f"SELECT ?g ?s ?o WHERE {{ GRAPH ?g {{ ?s {pred} ?o }} }}")
+    for g, s, o in res.rows:
+        if isinstance(s, ox.NamedNode) and g is not None and g.value in graphs:
+            yield graphs[g.value], s.value, o
+
+
+def _template_items(backend, sel: Selection, where: str, graphs) -> Iterator[tuple]:
+    from kgkit.templates import run_template
+
+    try:
+        res = run_template(backend, sel.template, sel.params, graphs=graphs)
+    except KgkitError as exc:
+        raise SpecError(f"{where}: {exc}") from None
+    variables = list(res.variables)
+    var = sel.variable or (variables[0] if variables else None)
+    if var not in variables:
+        raise SpecError(
+            f"{where}: template {sel.template!r} has no result variable {var!r} "
+            f"(variables: {', '.join(variables)})"
+        )
+    i = variables.index(var)
+    for row in res.rows:
+        yield row, i
+
+
+def select_topics(backend, spec: VocabSpec, ws: Workspace) -> list[str]:
+    """Source IRIs of the selected topics: template runs, the roots asked for, ``include``."""
+    graphs = list(spec.graphs) if spec.graphs is not None else None
+    selected: set[str] = set()
+    for n, sel in enumerate(spec.select):
+        where = f"{spec.path}: select[{n}]"
+        for row, i in _template_items(backend, sel, where, graphs):
+            term = row[i]
+            if isinstance(term, ox.NamedNode):
+                selected.add(term.value)
+        if sel.include_root:
+            selected.add(ws.expand(sel.params["root"]))
+    selected.update(spec.include)
+    return sorted(selected)
+
+
+def run_popularity(backend, spec: VocabSpec) -> dict[str, float]:
+    """Source IRI -> popularity, from the spec's ``prune.min_popularity`` template."""
+    rule = spec.prune.min_popularity
+    if rule is None:
+        return {}
+    where = f"{spec.path}: prune.min_popularity"
+    sel = Selection(rule.template, rule.params)
+    graphs = list(spec.graphs) if spec.graphs is not None else None
+    out: dict[str, float] = {}
+    value_var = None
+    for row, i in _template_items(backend, sel, where, graphs):
+        if value_var is None:
+            value_var = 1 if i == 0 else 0
+        term = row[i]
+        if not isinstance(term, ox.NamedNode) or len(row) < 2:
+            continue
+        val = row[value_var]
+        try:
+            out[term.value] = max(out.get(term.value, 0.0), float(val.value))
+        except (AttributeError, ValueError):
+            raise SpecError(f"{where}: {val} is not a number") from None
+    return out
+
+
+def fetch_entities(
+    backend,
+    sources: list[str],
+    profile: Profile,
+    graphs: tuple[str, ...] | None = None,
+    types: bool = False,
+    progress: Callable[[str], None] | None = None,
+) -> Fetched:
+    """Labels, aliases, hidden labels, notations, same-as links (of ``sources``), every
+    parent link of the graph (reattachment walks above the selection), and, with
+    ``types``, how many entities have each selected topic as their type."""
+    wanted = set(sources)
+    gnames = _graph_filter(backend, graphs)
+    f = Fetched()
+
+    def note(gname, s):
+        f.graphs.setdefault(s, set()).add(gname)
+
+    for rank, p in enumerate(profile["label"]):
+        if progress:
+            progress(f"labels <{p}>")
+        for gname, s, o in scan_predicate(backend, p, gnames):
+            if s in wanted and type(o) is ox.Literal:
+                note(gname, s)
+                f.labels.setdefault(s, []).append(((o.language or "").lower(), o.value, rank))
+    for role, kind in (("alias", "alias"), ("hidden_label", "hidden")):
+        for p in profile[role]:
+            if progress:
+                progress(f"aliases <{p}>")
+            for gname, s, o in scan_predicate(backend, p, gnames):
+                if s in wanted and type(o) is ox.Literal:
+                    note(gname, s)
+                    f.aliases.setdefault(s, []).append(((o.language or "").lower(), o.value, kind))
+    for p in profile["parent"]:
+        if progress:
+            progress(f"parents <{p}>")
+        for gname, s, o in scan_predicate(backend, p, gnames):
+            if type(o) is ox.NamedNode:
+                if s in wanted:
+                    note(gname, s)
+                f.parents.setdefault(s, []).append(o.value)
+    for p in profile["notation"]:
+        for gname, s, o in scan_predicate(backend, p, gnames):
+            if s in wanted and type(o) is ox.Literal:
+                note(gname, s)
+                f.notations.setdefault(s, set()).add(o.value)
+    for p in profile["same_as"]:
+        for _gname, s, o in scan_predicate(backend, p, gnames):
+            if s in wanted and type(o) is ox.NamedNode:
+                f.same_as.setdefault(s, set()).add(o.value)
+    if types:
+        for p in profile["type"]:
+            if progress:
+                progress(f"instances <{p}>")
+            for _gname, _s, o in scan_predicate(backend, p, gnames):
+                if type(o) is ox.NamedNode and o.value in wanted:
+                    f.instances[o.value] += 1
+    return f

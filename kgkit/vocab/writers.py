@@ -1,0 +1,223 @@
+"""Writing a compiled vocabulary: topics (JSON Lines, YAML), SKOS Turtle, lexicon, report.
+
+Every writer returns the file's text; :func:`write_build` writes them all into a
+temporary folder and renames it into place, so a failure leaves the previous
+build untouched. Output is deterministic: sorted, no timestamps.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import shutil
+from collections.abc import Iterable
+from pathlib import Path
+
+__all__ = [
+    "LEXICON_HEADER",
+    "jsonl_text",
+    "lexicon_text",
+    "report_json_text",
+    "report_text",
+    "skos_text",
+    "write_build",
+    "yaml_text",
+]
+
+LEXICON_HEADER = ("alias", "match_key", "topic", "language", "kind", "shared_by")
+
+
+def jsonl_text(records: list[dict]) -> str:
+    """One topic per line, keys sorted, UTF-8 without ASCII escapes."""
+    return "".join(json.dumps(r, sort_keys=True, ensure_ascii=False) + "\n" for r in records)
+
+
+# characters PyYAML refuses inside a document, even quoted (YAML 1.1 printable set)
+_NON_PRINTABLE = re.compile(
+    "[^\x09\x0a\x0d\x20-\x7e\x85\xa0-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]"
+)
+
+
+def _yq(value) -> str:
+    """A YAML scalar: JSON's double-quoted form is also YAML's (with the escapes YAML knows)."""
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int):
+        return str(value)
+    text = json.dumps(str(value), ensure_ascii=False)
+    return _NON_PRINTABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
+
+
+def _yaml_value(value, indent: str) -> list[str]:
+    if isinstance(value, dict):
+        if not value:
+            return [" {}"]
+        out = [""]
+        for k in sorted(value):
+            v = value[k]
+            sub = _yaml_value(v, indent + "  ")
+            out.append(f"{indent}{_yq(k)}:{sub[0]}")
+            out.extend(sub[1:])
+        return out
+    if isinstance(value, list):
+        if not value:
+            return [" []"]
+        return [""] + [f"{indent}- {_yq(v)}" for v in value]
+    return [" " + _yq(value)]
+
+
+def yaml_text(scheme: dict, records: list[dict]) -> str:
+    """The topic file for review: the scheme, then every topic, keys sorted."""
+    lines = ["# Compiled by kgkit; edit the spec or the curation file, not this file.", "scheme:"]
+    for k in sorted(scheme):
+        sub = _yaml_value(scheme[k], "    ")
+        lines.append(f"  {k}:{sub[0]}")
+        lines.extend(sub[1:])
+    lines.append("topics:" if records else "topics: []")
+    for r in records:
+        first = True
+        for k in sorted(r):
+            sub = _yaml_value(r[k], "      ")
+            lines.append(("  - " if first else "    ") + f"{k}:{sub[0]}")
+            lines.extend(sub[1:])
+            first = False
+    return "\n".join(lines) + "\n"
+
+
+def _tq(text: str) -> str:
+    """A Turtle string literal (W3C RDF 1.1 Turtle, ECHAR and UCHAR escapes)."""
+    out = (
+        text.replace("\\", "\\\\")
+        .replace('"', '\\"')
+        .replace("\n", "\\n")
+        .replace("\r", "\\r")
+        .replace("\t", "\\t")
+    )
+    return '"' + re.sub(r"[\x00-\x1f\x7f]", lambda m: f"\\u{ord(m.group()):04X}", out) + '"'
+
+
+def _tl(text: str, lang: str) -> str:
+    return _tq(text) + (f"@{lang}" if lang else "")
+
+
+def skos_text(
+    scheme_iri: str, title: str, records: list[dict], label_languages: dict[str, dict[str, str]]
+) -> str:
+    """SKOS in Turtle (W3C SKOS Reference, 2009): one concept scheme, one concept per topic.
+
+    ``label_languages``: topic -> {language of ``labels`` -> language tag to write},
+    for preferred labels lent by a fallback language (written with their own tag).
+    """
+    by_id = {r["id"]: r for r in records}
+    children: dict[str, list[str]] = {}
+    for r in records:
+        for p in r["parents"]:
+            children.setdefault(p, []).append(r["id"])
+    tops = [r["iri"] for r in records if r["status"] == "active" and not r["parents"]]
+    out = [
+        "@prefix dct: <http://purl.org/dc/terms/> .",
+        "@prefix owl: <http://www.w3.org/2002/07/owl#> .",
+        "@prefix skos: <http://www.w3.org/2004/02/skos/core#> .",
+        "",
+        f"<{scheme_iri}> a skos:ConceptScheme ;",
+        f"    dct:title {_tq(title)}" + (" ;" if tops else " ."),
+    ]
+    if tops:
+        out.append("    skos:hasTopConcept " + ",\n        ".join(f"<{t}>" for t in tops) + " .")
+    for r in records:
+        props = [f"skos:inScheme <{scheme_iri}>"]
+        tags = label_languages.get(r["id"], {})
+        seen = set()
+        for lang in sorted(r["labels"]):
+            lit = (r["labels"][lang], tags.get(lang, lang))
+            if lit not in seen:
+                seen.add(lit)
+                props.append("skos:prefLabel " + _tl(*lit))
+        for lang in sorted(r["aliases"]):
+            for a in r["aliases"][lang]:
+                if (a, lang) not in seen:
+                    props.append("skos:altLabel " + _tl(a, lang))
+        if r["status"] == "active":
+            if not r["parents"]:
+                props.append(f"skos:topConceptOf <{scheme_iri}>")
+            for p in r["parents"]:
+                props.append(f"skos:broader <{by_id[p]['iri']}>")
+            for c in sorted(children.get(r["id"], ())):
+                props.append(f"skos:narrower <{by_id[c]['iri']}>")
+        else:
+            props.append("owl:deprecated true")
+            if r["replaced_by"] and r["replaced_by"] in by_id:
+                props.append(f"dct:isReplacedBy <{by_id[r['replaced_by']]['iri']}>")
+        if r["notation"] is not None:
+            props.append("skos:notation " + _tq(r["notation"]))
+        out.append("")
+        out.append(f"<{r['iri']}> a skos:Concept ;")
+        out.append("    " + " ;\n    ".join(props) + " .")
+    return "\n".join(out) + "\n"
+
+
+def lexicon_text(rows: Iterable[tuple]) -> str:
+    """TSV: header, then (alias, match key, topic, language, kind, shared_by) rows."""
+    lines = ["\t".join(LEXICON_HEADER)]
+    lines.extend("\t".join(str(x) for x in row) for row in rows)
+    return "\n".join(lines) + "\n"
+
+
+def report_json_text(report: dict) -> str:
+    return json.dumps(report, sort_keys=True, ensure_ascii=False, indent=2) + "\n"
+
+
+def report_text(name: str, report: dict) -> str:
+    """The short human summary of a compile."""
+    c = report["counts"]
+    lines = [
+        f"vocabulary {name}: {c['topics']} topics ({c['deprecated']} deprecated), "
+        f"{c['aliases']} aliases, {c['lexicon_rows']} lexicon rows",
+        f"selected {c['selected']}, added by curation {c['added_by_curation']}, "
+        f"dropped {c['dropped_topics']} topics and {c['dropped_aliases']} aliases",
+    ]
+    for kind, key in (
+        ("topics", "dropped_topics_by_reason"),
+        ("aliases", "dropped_aliases_by_reason"),
+    ):
+        for reason, n in sorted(c[key].items()):
+            lines.append(f"  dropped {kind}, {reason}: {n}")
+    lines.append(
+        f"hierarchy: {c['cycles_broken']} cycle links broken, {c['reductions']} redundant "
+        f"parent links removed, {c['reattached']} reattached, {c['new_roots']} new roots, "
+        f"{c['roots']} roots, depth up to {c['max_depth']}"
+    )
+    lines.append(f"ambiguous match keys: {c['ambiguous_keys']}; id clashes: {c['id_clashes']}")
+    lines.append(f"curation: {c['curation_applied']} edits applied, {c['curation_stale']} stale")
+    for s in report["curation"]["stale"]:
+        lines.append(f"  stale edit {s['edit']} ({s['action']} {s['target']}): {s['reason']}")
+    return "\n".join(lines) + "\n"
+
+
+def write_build(build_dir: Path, files: dict[str, str]) -> Path:
+    """Write ``files`` (name -> text) into ``build_dir`` atomically: temp folder, then rename."""
+    build_dir = Path(build_dir)
+    build_dir.parent.mkdir(parents=True, exist_ok=True)
+    tmp = build_dir.with_name(f".{build_dir.name}.tmp-{os.getpid()}")
+    old = build_dir.with_name(f".{build_dir.name}.old-{os.getpid()}")
+    for leftover in (tmp, old):
+        if leftover.exists():
+            shutil.rmtree(leftover)
+    tmp.mkdir()
+    try:
+        for name in sorted(files):
+            with open(tmp / name, "w", encoding="utf-8", newline="\n") as fh:
+                fh.write(files[name])
+        if build_dir.exists():
+            os.replace(build_dir, old)
+        os.replace(tmp, build_dir)
+    except BaseException:
+        if old.exists() and not build_dir.exists():
+            os.replace(old, build_dir)
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    shutil.rmtree(old, ignore_errors=True)
+    return build_dir
