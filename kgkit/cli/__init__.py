@@ -55,7 +55,14 @@ def cli(ctx: click.Context, workspace: str | None, debug: bool) -> None:
 
 # Command modules, in the order their commands appear in `kgkit --help`.
 # Each module has a COMMANDS list; add a new module here.
-_MODULES = ("workspace_cmds", "ingest_cmds", "vocab_cmds", "release_cmds", "demo_cmds")
+_MODULES = (
+    "workspace_cmds",
+    "ingest_cmds",
+    "vocab_cmds",
+    "release_cmds",
+    "review_cmds",
+    "demo_cmds",
+)
 
 
 def _register() -> None:

@@ -1,0 +1,148 @@
+"""``kgkit report`` (the review page) and ``kgkit probe`` (annotator's first pass)."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from kgkit.cli.common import echo_json
+from kgkit.errors import KgkitError
+from kgkit.probe import (
+    DEFAULT_THRESHOLD,
+    curation_edits_for,
+    load_lexicon,
+    probe_corpus,
+    write_curation_edits,
+)
+from kgkit.report import write_page
+
+
+@click.command("report")
+@click.argument("target", type=click.Path(file_okay=False, path_type=Path))
+@click.option(
+    "--output",
+    "-o",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="The HTML file to write.",
+)
+@click.option("--no-lint", is_flag=True, help="Leave the lint findings out (faster).")
+def report_command(target: Path, output: Path, no_lint: bool) -> None:
+    """Write a self-contained HTML review page for a release or build folder TARGET.
+
+    The page works offline: topic tree with search, per-topic card, ambiguous
+    aliases, dropped topics, lint findings, changelog and charts.
+
+    Example: kgkit report vocab/tidewell/1.0.0 -o tidewell-1.0.0.html
+    """
+    path = write_page(target, output, lint=not no_lint)
+    click.echo(f"review page written to {path} ({path.stat().st_size:,} bytes)")
+
+
+def _read_input(text: str | None, file: str | None) -> str:
+    if (text is None) == (file is None):
+        raise click.UsageError("give either TEXT or -f FILE (- for standard input)")
+    if text is not None:
+        return text
+    if file == "-":
+        data = sys.stdin.buffer.read()
+        where = "standard input"
+    else:
+        try:
+            data = Path(file).read_bytes()
+        except OSError as exc:
+            raise KgkitError(f"{file}: cannot read ({exc.strerror})") from None
+        where = file
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise KgkitError(f"{where}: not UTF-8 text (byte {exc.start})") from None
+
+
+def _line_col(text: str, offset: int) -> tuple[int, int]:
+    line = text.count("\n", 0, offset) + 1
+    return line, offset - (text.rfind("\n", 0, offset) + 1) + 1
+
+
+@click.command("probe")
+@click.argument("release", type=click.Path(file_okay=False, path_type=Path))
+@click.argument("text", required=False)
+@click.option("--file", "-f", "file", help="Read the text from FILE (- for standard input).")
+@click.option(
+    "--corpus",
+    type=click.Path(file_okay=False, exists=True, path_type=Path),
+    help="Probe every .txt file under this folder and report how common each alias is.",
+)
+@click.option(
+    "--threshold",
+    type=float,
+    default=DEFAULT_THRESHOLD,
+    show_default=True,
+    help="With --corpus: flag aliases found in more than this share of the documents.",
+)
+@click.option(
+    "--write-curation",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="With --corpus: write the flagged aliases as remove_alias curation edits to this file.",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print the hits (or the corpus) as JSON.")
+def probe_command(release, text, file, corpus, threshold, write_curation, as_json):
+    """Mark where the aliases of RELEASE (a release or build folder) occur in TEXT.
+
+    Matches as an annotator's first pass would: longest match first, on word
+    boundaries, compared by the lexicon's match key (NFKC, case folded). Each hit
+    shows its span, its topic (all candidates when the key is ambiguous) and the
+    topic's parents.
+
+    Example: kgkit probe vocab/tidewell/1.0.0 -f article.txt
+    """
+    lexicon = load_lexicon(release)
+    if corpus is not None:
+        if text is not None or file is not None:
+            raise click.UsageError("--corpus takes no TEXT or -f FILE")
+        report = probe_corpus(lexicon, corpus, threshold=threshold)
+        edits, skipped = curation_edits_for(report)
+        if write_curation:
+            write_curation_edits(edits, write_curation)
+        if as_json:
+            echo_json(report.to_dict())
+            return
+        click.echo(
+            f"{report.documents} documents, {report.hits} hits, {len(report.keys)} match keys "
+            f"found; flagged above {report.threshold:.0%} of the documents:"
+        )
+        width = max((len(k.key) for k in report.keys), default=5)
+        for k in report.keys:
+            flag = "TOO COMMON" if k.flagged else ""
+            topics = ", ".join(k.topics)
+            click.echo(
+                f"  {k.key:<{width}}  {k.documents:>4}  {k.share:6.1%}  {topics}  {flag}".rstrip()
+            )
+        for topic, alias, language, _kind in skipped:
+            click.echo(
+                f"note: {alias!r} is the preferred label of {topic} [{language or 'untagged'}]; "
+                "an alias edit cannot remove it (relabel or exclude the topic by hand)"
+            )
+        if write_curation:
+            click.echo(f"{len(edits)} remove_alias edits written to {write_curation}")
+        return
+
+    body = _read_input(text, file)
+    hits = lexicon.find(body)
+    if as_json:
+        click.echo(json.dumps([h.to_dict() for h in hits], ensure_ascii=False, sort_keys=True))
+        return
+    for h in hits:
+        line, col = _line_col(body, h.start)
+        mark = "ambiguous" if h.is_ambiguous else ""
+        click.echo(f"{line}:{col} [{h.start}:{h.end}] {h.text!r} {mark}".rstrip())
+        for c in h.candidates:
+            parents = ", ".join(f"{p} ({lab})" for p, lab in c.parents) or "none (a root)"
+            click.echo(f"    {c.topic} \u201c{c.label}\u201d  parents: {parents}")
+    click.echo(f"{len(hits)} hits" if len(hits) != 1 else "1 hit")
+
+
+COMMANDS = [report_command, probe_command]

@@ -1,0 +1,410 @@
+"""Probing text with a vocabulary: where would an annotator's first pass tag it?
+
+The lexicon of a release (``lexicon.tsv``) lists every alias with its *match
+key*: NFKC, whitespace folded to single spaces, then Unicode case folding. A
+probe normalises the text the same way, keeping a map from every normalised
+character back to the original text, and finds every key in it at once with an
+Aho-Corasick automaton (``ahocorasick_rs``). Of the matches that start and end
+on word boundaries, the leftmost-longest win and never overlap: "canoe polo
+club" gives "canoe polo", not "canoe" and "polo".
+
+A key shared by several topics is a hit with all of them as candidates; the
+annotator has to choose, and so does the taxonomy owner.
+
+Over a corpus (a folder of ``.txt`` files) the probe counts, per match key, the
+share of documents in which it occurs. A key found in most documents tells an
+annotator nothing about any one of them (the rule of thumb behind inverse
+document frequency; common practice, no source): such keys are flagged, and the
+aliases behind them can be written out as curation edits that remove them.
+
+>>> normalise_with_offsets("Canoe\\u00a0 POLO")[0]
+'canoe polo'
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import unicodedata
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import ahocorasick_rs
+import yaml
+
+from kgkit.errors import KgkitError
+
+__all__ = [
+    "DEFAULT_THRESHOLD",
+    "Candidate",
+    "Hit",
+    "Lexicon",
+    "AliasShare",
+    "CorpusReport",
+    "ProbeError",
+    "load_lexicon",
+    "normalise_with_offsets",
+    "probe_text",
+    "probe_corpus",
+    "curation_edits_for",
+    "write_curation_edits",
+]
+
+#: Share of documents above which a key is flagged as too common to tag with.
+#: Half the documents is a rule of thumb (common practice, no source).
+DEFAULT_THRESHOLD = 0.5
+
+LEXICON_HEADER = ["alias", "match_key", "topic", "language", "kind", "shared_by"]
+
+
+class ProbeError(KgkitError):
+    """A release folder or a text to probe cannot be read."""
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A topic a hit may mean: its id, a label to show, and its parents."""
+
+    topic: str
+    label: str
+    parents: tuple[tuple[str, str], ...]  # (parent id, parent label)
+    aliases: tuple[str, ...]  # the lexicon entries of this topic under the hit's key
+
+    def to_dict(self) -> dict:
+        return {
+            "topic": self.topic,
+            "label": self.label,
+            "parents": [{"topic": p, "label": lab} for p, lab in self.parents],
+            "aliases": list(self.aliases),
+        }
+
+
+@dataclass(frozen=True)
+class Hit:
+    """One place in the text where a lexicon key occurs."""
+
+    start: int  # character offsets into the original text, end exclusive
+    end: int
+    text: str  # the original text of the span
+    key: str
+    candidates: tuple[Candidate, ...]
+
+    @property
+    def is_ambiguous(self) -> bool:
+        return len(self.candidates) > 1
+
+    def to_dict(self) -> dict:
+        return {
+            "start": self.start,
+            "end": self.end,
+            "text": self.text,
+            "key": self.key,
+            "ambiguous": self.is_ambiguous,
+            "candidates": [c.to_dict() for c in self.candidates],
+        }
+
+
+def _is_word(ch: str) -> bool:
+    return ch.isalnum() or ch == "_" or unicodedata.category(ch).startswith("M")
+
+
+def normalise_with_offsets(text: str) -> tuple[str, list[tuple[int, int]]]:
+    """The match-key form of ``text`` and, per character of it, its span in ``text``.
+
+    The same steps as the lexicon's match key (NFKC, whitespace runs folded to
+    one space, case folding), applied per base character with its combining
+    marks so that every output character can be traced back. Leading and
+    trailing whitespace is kept as one space, so offsets stay aligned.
+    """
+    out: list[str] = []
+    spans: list[tuple[int, int]] = []
+    i, n = 0, len(text)
+    while i < n:
+        j = i + 1
+        while j < n and unicodedata.combining(text[j]):
+            j += 1
+        piece = unicodedata.normalize("NFKC", text[i:j]).casefold()
+        for ch in piece:
+            if ch.isspace():
+                if out and out[-1] == " ":
+                    spans[-1] = (spans[-1][0], j)
+                    continue
+                ch = " "
+            out.append(ch)
+            spans.append((i, j))
+        i = j
+    return "".join(out), spans
+
+
+class Lexicon:
+    """The match keys of a release or build, their topics, and an automaton over them."""
+
+    def __init__(self, folder: Path, rows: list[dict], topics: dict[str, dict]):
+        self.folder = folder
+        self.topics = topics
+        self.by_key: dict[str, list[dict]] = {}
+        for row in rows:
+            self.by_key.setdefault(row["match_key"], []).append(row)
+        self.keys = sorted(self.by_key)
+        self._automaton = (
+            ahocorasick_rs.AhoCorasick(self.keys, matchkind=ahocorasick_rs.MATCHKIND_STANDARD)
+            if self.keys
+            else None
+        )
+
+    def label_of(self, topic: str, language: str | None = None) -> str:
+        labels = (self.topics.get(topic) or {}).get("labels") or {}
+        if language and labels.get(language):
+            return labels[language]
+        for lang in ("en", "", *sorted(labels)):
+            if labels.get(lang):
+                return labels[lang]
+        return topic
+
+    def candidates(self, key: str) -> tuple[Candidate, ...]:
+        rows = self.by_key[key]
+        out = []
+        for topic in sorted({r["topic"] for r in rows}):
+            mine = [r for r in rows if r["topic"] == topic]
+            lang = mine[0]["language"]
+            parents = (self.topics.get(topic) or {}).get("parents") or []
+            out.append(
+                Candidate(
+                    topic=topic,
+                    label=self.label_of(topic, lang),
+                    parents=tuple((p, self.label_of(p, lang)) for p in parents),
+                    aliases=tuple(
+                        sorted(
+                            {f"{r['alias']} ({r['language'] or '-'}, {r['kind']})" for r in mine}
+                        )
+                    ),
+                )
+            )
+        return tuple(out)
+
+    def find(self, text: str) -> list[Hit]:
+        """Every leftmost-longest, non-overlapping, word-bounded hit in ``text``."""
+        if self._automaton is None or not text:
+            return []
+        norm, spans = normalise_with_offsets(text)
+        found = []
+        for index, s, e in self._automaton.find_matches_as_indexes(norm, overlapping=True):
+            if s > 0 and _is_word(norm[s - 1]) and _is_word(norm[s]):
+                continue
+            if e < len(norm) and _is_word(norm[e]) and _is_word(norm[e - 1]):
+                continue
+            found.append((s, -(e - s), index))
+        found.sort()
+        hits: list[Hit] = []
+        last_end = 0
+        for s, neg_len, index in found:
+            e = s - neg_len
+            if s < last_end:
+                continue
+            last_end = e
+            start, end = spans[s][0], spans[e - 1][1]
+            key = self.keys[index]
+            hits.append(Hit(start, end, text[start:end], key, self.candidates(key)))
+        return hits
+
+
+def _read_topics(path: Path) -> dict[str, dict]:
+    topics: dict[str, dict] = {}
+    if not path.is_file():
+        return topics
+    with open(path, encoding="utf-8") as fh:
+        for n, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                obj = json.loads(line)
+                topics[obj["id"]] = obj
+            except (json.JSONDecodeError, KeyError, TypeError) as exc:
+                raise ProbeError(f"{path}:{n}: not a topic record ({exc})") from None
+    return topics
+
+
+def load_lexicon(folder: Path | str) -> Lexicon:
+    """Read ``lexicon.tsv`` (and ``topics.jsonl`` for labels and parents) of a release or build."""
+    folder = Path(folder)
+    path = folder / "lexicon.tsv"
+    if not path.is_file():
+        raise ProbeError(f"{folder}: no lexicon.tsv here; give a release or build folder")
+    rows = []
+    with open(path, encoding="utf-8", newline="") as fh:
+        reader = csv.reader(fh, delimiter="\t", quoting=csv.QUOTE_NONE)
+        header = next(reader, None)
+        if header != LEXICON_HEADER:
+            raise ProbeError(
+                f"{path}:1: expected the tab-separated header {', '.join(LEXICON_HEADER)}"
+            )
+        for n, cells in enumerate(reader, 2):
+            if not cells:
+                continue
+            if len(cells) != len(LEXICON_HEADER):
+                raise ProbeError(f"{path}:{n}: expected {len(LEXICON_HEADER)} columns")
+            row = dict(zip(LEXICON_HEADER, cells, strict=True))
+            if not row["match_key"]:
+                raise ProbeError(f"{path}:{n}: empty match key")
+            rows.append(row)
+    return Lexicon(folder, rows, _read_topics(folder / "topics.jsonl"))
+
+
+def probe_text(lexicon: Lexicon | Path | str, text: str) -> list[Hit]:
+    """Hits of the lexicon's keys in ``text`` (see :meth:`Lexicon.find`)."""
+    if not isinstance(lexicon, Lexicon):
+        lexicon = load_lexicon(lexicon)
+    return lexicon.find(text)
+
+
+@dataclass(frozen=True)
+class AliasShare:
+    """How many documents of a corpus one match key occurs in."""
+
+    key: str
+    aliases: tuple[tuple[str, str, str, str], ...]  # (topic, alias, language, kind)
+    documents: int
+    share: float
+    flagged: bool
+
+    @property
+    def topics(self) -> tuple[str, ...]:
+        return tuple(sorted({a[0] for a in self.aliases}))
+
+    def to_dict(self) -> dict:
+        return {
+            "key": self.key,
+            "topics": list(self.topics),
+            "aliases": [
+                {"topic": t, "alias": a, "language": lang, "kind": k}
+                for t, a, lang, k in self.aliases
+            ],
+            "documents": self.documents,
+            "share": round(self.share, 4),
+            "flagged": self.flagged,
+        }
+
+
+@dataclass
+class CorpusReport:
+    """Per match key found in a corpus, the share of documents it occurs in."""
+
+    folder: Path
+    documents: int
+    threshold: float
+    keys: list[AliasShare] = field(default_factory=list)
+    hits: int = 0
+
+    @property
+    def flagged(self) -> list[AliasShare]:
+        return [k for k in self.keys if k.flagged]
+
+    def to_dict(self) -> dict:
+        return {
+            "folder": str(self.folder),
+            "documents": self.documents,
+            "threshold": self.threshold,
+            "hits": self.hits,
+            "keys": [k.to_dict() for k in self.keys],
+        }
+
+
+def _read_text(path: Path) -> str:
+    try:
+        return path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise ProbeError(f"{path}: not UTF-8 text (byte {exc.start})") from None
+
+
+def probe_corpus(
+    lexicon: Lexicon | Path | str,
+    folder: Path | str,
+    threshold: float = DEFAULT_THRESHOLD,
+) -> CorpusReport:
+    """Share of the ``.txt`` documents under ``folder`` in which each key occurs.
+
+    Keys in more than ``threshold`` of the documents are flagged. Sorted by
+    share (highest first), then key.
+    """
+    if not isinstance(lexicon, Lexicon):
+        lexicon = load_lexicon(lexicon)
+    folder = Path(folder)
+    if not folder.is_dir():
+        raise ProbeError(f"{folder}: not a folder of .txt documents")
+    if not 0 < threshold <= 1:
+        raise ProbeError(f"threshold must be a share between 0 and 1, not {threshold}")
+    files = sorted(folder.rglob("*.txt"))
+    if not files:
+        raise ProbeError(f"{folder}: no .txt documents in this folder")
+    seen: dict[str, int] = {}
+    hits = 0
+    for path in files:
+        found = lexicon.find(_read_text(path))
+        hits += len(found)
+        for key in {h.key for h in found}:
+            seen[key] = seen.get(key, 0) + 1
+    shares = []
+    for key, count in seen.items():
+        share = count / len(files)
+        rows = lexicon.by_key[key]
+        shares.append(
+            AliasShare(
+                key=key,
+                aliases=tuple(
+                    sorted({(r["topic"], r["alias"], r["language"], r["kind"]) for r in rows})
+                ),
+                documents=count,
+                share=share,
+                flagged=share > threshold,
+            )
+        )
+    shares.sort(key=lambda a: (-a.documents, a.key))
+    return CorpusReport(folder, len(files), threshold, shares, hits)
+
+
+def curation_edits_for(
+    report: CorpusReport | Iterable[AliasShare], note: str | None = None
+) -> tuple[list[dict], list[tuple[str, str, str, str]]]:
+    """Curation edits that remove the flagged aliases, in the curation overlay's format.
+
+    Returns ``(edits, skipped)``. Each edit is plain data such as
+    ``{"remove_alias": {"topic": t, "alias": a, "language": "en"}, "note": "..."}``.
+    A flagged key that is a *preferred label* cannot be removed as an alias:
+    those entries come back in ``skipped`` (relabel or exclude them by hand).
+    """
+    shares = report.flagged if isinstance(report, CorpusReport) else list(report)
+    edits, skipped = [], []
+    for share in shares:
+        for topic, alias, language, kind in share.aliases:
+            if kind != "alias":
+                skipped.append((topic, alias, language, kind))
+                continue
+            edits.append(
+                {
+                    "remove_alias": {"topic": topic, "alias": alias, "language": language},
+                    "note": note
+                    or f"found in {share.documents} of the probed documents "
+                    f"({share.share:.0%}): too common to tag with",
+                }
+            )
+    return edits, skipped
+
+
+def write_curation_edits(edits: list[dict], path: Path | str) -> Path:
+    """Write ``edits`` as a curation overlay file (validated by the compiler's own reader)."""
+    from kgkit.vocab.curation import load_curation  # the format has one home: the compiler
+
+    path = Path(path)
+    text = "# Curation edits written by `kgkit probe --corpus`; merge them into\n"
+    text += "# vocab/<name>.curation.yaml (or use this file as the curation file).\n"
+    text += yaml.safe_dump({"edits": edits}, allow_unicode=True, sort_keys=False, width=100)
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    try:
+        load_curation(tmp)
+    except KgkitError:
+        tmp.unlink()
+        raise
+    tmp.replace(path)
+    return path
