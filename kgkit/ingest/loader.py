@@ -280,16 +280,26 @@ def _column(line: bytes, err: SyntaxError) -> int | None:
 def _locate(seg: list[bytes], exc: SyntaxError, fmt: ox.RdfFormat) -> tuple[int, int | None, str]:
     """Index in ``seg`` of the line that caused ``exc``, its column and the cause."""
     reported = min(max((exc.lineno or 1) - 1, 0), len(seg) - 1)
+
+    def found(c: int, err: SyntaxError):
+        # the column from the lone line (where the bad term starts); the cause from the
+        # whole input when it was reported on this very line, as it says more there
+        # ("line jumps are not allowed in string literals" rather than "end of file")
+        cause = _cause(exc) if c == reported and exc.lineno else _cause(err)
+        if cause == "unexpected end of file":
+            cause = "unexpected end of line"
+        return c, _column(seg[c], err), cause
+
     for c in (reported - 1, reported):
         if 0 <= c < len(seg) and _is_statement(seg[c]):
             err = _solo_error(seg[c], fmt)
             if err is not None:
-                return c, _column(seg[c], err), _cause(err)
+                return found(c, err)
     for c, line in enumerate(seg):
         if _is_statement(line):
             err = _solo_error(line, fmt)
             if err is not None:
-                return c, _column(line, err), _cause(err)
+                return found(c, err)
     return reported, exc.offset, _cause(exc)
 
 
