@@ -107,9 +107,10 @@ def break_cycles(parents: dict[str, list[str]]) -> list[dict]:
 
     Rule (deterministic): take the strongly connected components in order of their
     smallest member; in each, find a cycle starting from its smallest member and
-    remove, of that cycle's links (child, parent), the greatest in (child, parent)
-    order; repeat until the component has no cycle. A topic that is its own parent
-    loses that link first.
+    remove one of that cycle's links (child, parent): among the links whose child
+    has another parent (so that no topic is cut loose), else among all of them, the
+    greatest in (child, parent) order; repeat until the component has no cycle. A
+    topic that is its own parent loses that link first.
     """
     report = []
     for node in sorted(parents):
@@ -146,7 +147,8 @@ def break_cycles(parents: dict[str, list[str]]) -> list[dict]:
                 if cycle is None:
                     break
             edges = [(u, v) for u, v, *_ in cycle]
-            child, parent = max(edges)
+            spare = [(u, v) for u, v in edges if len(parents[u]) > 1]
+            child, parent = max(spare or edges)
             sub.remove_edge(child, parent)
             parents[child] = [p for p in parents[child] if p != parent]
             members = sorted({u for u, _ in edges})

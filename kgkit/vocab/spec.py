@@ -237,22 +237,43 @@ class _Checker:
         return out
 
 
-def _template_names(ws: Workspace) -> set[str] | None:
+def _templates(ws: Workspace) -> dict | None:
+    """name -> template, or None when the template layer is not available."""
     try:
         from kgkit.templates import list_templates
-    except ImportError:  # the template layer is not installed: checked when run
+    except ImportError:  # pragma: no cover - the template layer ships with kgkit
         return None
-    names = set()
-    for t in list_templates(ws):
-        names.add(getattr(t, "name", t))
-    return names
+    return {t.name: t for t in list_templates(ws)}
 
 
-def _check_template(c: _Checker, ws: Workspace, name, key: str, known: set[str] | None) -> str:
+def _check_template(
+    c: _Checker, ws: Workspace, name, key: str, known: dict | None, params: dict, pkey: str
+) -> str:
+    """The template exists, its parameters are declared, required ones given, values valid."""
     if not isinstance(name, str) or not name:
         raise c.fail(key, "must name a template")
-    if known is not None and name not in known:
+    if known is None:
+        return name
+    if name not in known:
         raise c.fail(key, f"unknown template {name!r} (known: {', '.join(sorted(known))})")
+    tpl = known[name]
+    from kgkit.templates import parse_value
+
+    declared = {p.name: p for p in tpl.params}
+    for pname, raw in params.items():
+        if pname not in declared:
+            raise c.fail(
+                f"{pkey}.{pname}",
+                f"template {name!r} has no parameter {pname!r} "
+                f"(parameters: {', '.join(declared) or 'none'})",
+            )
+        try:
+            parse_value(declared[pname], raw, ws)
+        except KgkitError as exc:
+            raise c.fail(f"{pkey}.{pname}", str(exc)) from None
+    for p in tpl.params:
+        if p.required and p.name not in params:
+            raise c.fail(pkey, f"template {name!r} needs the parameter {p.name!r}")
     return name
 
 
@@ -283,7 +304,7 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
     if graphs is not None:
         graphs = tuple(c.strings(graphs, "graphs"))
 
-    known = _template_names(ws)
+    known = _templates(ws)
     raw_select = d["select"]
     if not isinstance(raw_select, list) or not raw_select:
         raise c.fail("select", "must be a non-empty list of template runs")
@@ -293,8 +314,10 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
         e = c.mapping(entry, key, ("template", "params", "include_root", "variable"))
         if "template" not in e:
             raise c.fail(key, "needs a 'template'")
-        tname = _check_template(c, ws, e["template"], f"{key}.template", known)
         params = c.params(e.get("params"), f"{key}.params")
+        tname = _check_template(
+            c, ws, e["template"], f"{key}.template", known, params, f"{key}.params"
+        )
         include_root = c.bool_(e.get("include_root", False), f"{key}.include_root")
         if include_root:
             if "root" not in params:
@@ -350,9 +373,10 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
         variable = p.get("variable")
         if variable is not None and not isinstance(variable, str):
             raise c.fail(f"{pk}.variable", "must be a result variable name")
+        pparams = c.params(p.get("params"), f"{pk}.params")
         pop = PopularityRule(
-            _check_template(c, ws, p["template"], f"{pk}.template", known),
-            c.params(p.get("params"), f"{pk}.params"),
+            _check_template(c, ws, p["template"], f"{pk}.template", known, pparams, f"{pk}.params"),
+            pparams,
             float(m),
             variable,
         )
