@@ -1,0 +1,638 @@
+"""Running SPARQL against the workspace: the embedded store or a remote endpoint.
+
+:func:`connect` opens a *backend*: the workspace store, read-only, or the SPARQL 1.1
+endpoint named by ``endpoint:`` in ``kgkit.yaml``. :func:`run_query` runs one query
+on it and returns a :class:`QueryResult` whose rows stream.
+
+Guards, decided by reading the query's tokens (strings, IRIs, comments, variables
+and prefixed names are skipped, so ``"SERVICE"`` in a literal or ``ex:drop`` does
+not count):
+
+- an update (INSERT, DELETE, LOAD, CLEAR, DROP, ...) is refused unless
+  ``allow_update`` is given, and then only on a store opened for writing;
+- a query holding a SERVICE clause is refused unless ``allow_service`` is given,
+  because pyoxigraph answers SERVICE by making HTTP requests.
+
+By default a query sees the union of the *current* content graphs as its default
+graph, and each of them through ``GRAPH ?g``; never the provenance graph or content
+left behind by a failed import.
+
+Formatting (:func:`write_result`): a terminal table with CURIEs, the W3C
+"SPARQL 1.1 Query Results JSON Format" and "SPARQL 1.1 Query Results CSV and TSV
+Formats", and N-Triples or Turtle for CONSTRUCT and DESCRIBE.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import csv
+import io
+import json
+import re
+import shutil
+import socket
+import urllib.error
+import urllib.parse
+import urllib.request
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass, field
+from typing import TextIO
+
+import pyoxigraph as ox
+
+import kgkit
+from kgkit.errors import KgkitError, QueryError
+from kgkit.store import KG, PROVENANCE_GRAPH, current_graphs, open_store
+from kgkit.workspace import Workspace
+
+__all__ = [
+    "FORMATS",
+    "Backend",
+    "EmbeddedBackend",
+    "EndpointBackend",
+    "QueryResult",
+    "Token",
+    "connect",
+    "format_term",
+    "has_service",
+    "query_form",
+    "run_query",
+    "tokenize",
+    "write_result",
+]
+
+#: output formats of :func:`write_result`
+FORMATS = ("table", "json", "csv", "tsv", "nt", "ttl")
+
+XSD_STRING = "http://www.w3.org/2001/XMLSchema#string"
+_NUMERIC = {
+    "http://www.w3.org/2001/XMLSchema#" + t
+    for t in ("integer", "decimal", "double", "float", "int", "long", "nonNegativeInteger")
+}
+QUERY_FORMS = ("SELECT", "CONSTRUCT", "DESCRIBE", "ASK")
+UPDATE_WORDS = ("INSERT", "DELETE", "LOAD", "CLEAR", "DROP", "CREATE", "ADD", "MOVE", "COPY")
+UPDATE_WORDS += ("WITH",)
+
+# ---------------------------------------------------------------------------
+# Tokens
+
+
+@dataclass(frozen=True)
+class Token:
+    kind: str  # word, pname, var, iri, string, lang, slot, num, punct
+    text: str
+    start: int
+
+
+_TOKEN = re.compile(
+    r"""
+    (?P<ws>\s+)
+  | (?P<comment>\#[^\n\r]*)
+  | (?P<string>\"\"\"(?:[^"\\]|\\.|"(?!""))*\"\"\"
+             | '''(?:[^'\\]|\\.|'(?!''))*'''
+             | "(?:[^"\\\n\r]|\\.)*"
+             | '(?:[^'\\\n\r]|\\.)*')
+  | (?P<iri><[^<>"{}|^`\\\x00-\x20]*>)
+  | (?P<var>[?$][A-Za-z0-9_\u00b7\u00c0-\uffff]+)
+  | (?P<lang>@[A-Za-z]+(?:-[A-Za-z0-9]+)*)
+  | (?P<slot>%\{[A-Za-z_][A-Za-z0-9_]*\})
+  | (?P<pname>(?:[A-Za-z_\u00c0-\uffff][\w.\-\u00b7\u00c0-\uffff]*)?:
+               (?:[\w\-.:\u00b7\u00c0-\uffff]|%[0-9A-Fa-f]{2}|\\.)*)
+  | (?P<word>[A-Za-z_][A-Za-z0-9_]*)
+  | (?P<num>[0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)
+  | (?P<punct>.)
+    """,
+    re.X | re.S,
+)
+
+
+def tokenize(text: str) -> Iterator[Token]:
+    """The tokens of a SPARQL text, without white space and comments.
+
+    Unterminated strings and lone ``<`` come out as punctuation: the SPARQL parser
+    reports them; this only has to find keywords reliably.
+    """
+    for m in _TOKEN.finditer(text):
+        kind = m.lastgroup
+        if kind in ("ws", "comment"):
+            continue
+        yield Token(kind, m.group(), m.start())
+
+
+def query_form(text: str) -> str:
+    """``SELECT``, ``CONSTRUCT``, ``DESCRIBE``, ``ASK``, ``UPDATE`` or ``UNKNOWN``.
+
+    >>> query_form("PREFIX ex: <http://example.org/> ask { ?s ex:p ?o }")
+    'ASK'
+    >>> query_form("DROP ALL")
+    'UPDATE'
+    """
+    toks = tokenize(text)
+    for tok in toks:
+        if tok.kind != "word":
+            return "UNKNOWN"
+        word = tok.text.upper()
+        if word == "BASE":
+            next(toks, None)
+        elif word == "PREFIX":
+            next(toks, None)
+            next(toks, None)
+        elif word in QUERY_FORMS:
+            return word
+        elif word in UPDATE_WORDS:
+            return "UPDATE"
+        else:
+            return "UNKNOWN"
+    return "UNKNOWN"
+
+
+def has_service(text: str) -> bool:
+    """Whether the text holds the SERVICE keyword (outside strings, IRIs, comments).
+
+    >>> has_service('SELECT * { ?s ?p "SERVICE" } # SERVICE')
+    False
+    >>> has_service("SELECT * { service <http://example.org/sparql> { ?s ?p ?o } }")
+    True
+    """
+    return any(t.kind == "word" and t.text.upper() == "SERVICE" for t in tokenize(text))
+
+
+def declared_prefixes(text: str) -> set[str]:
+    """Prefix names the query declares itself."""
+    out = set()
+    toks = list(tokenize(text))
+    for i, tok in enumerate(toks[:-1]):
+        if tok.kind == "word" and tok.text.upper() == "PREFIX" and toks[i + 1].kind == "pname":
+            out.add(toks[i + 1].text[:-1])
+    return out
+
+
+def _prologue(ws: Workspace, text: str) -> str:
+    declared = declared_prefixes(text)
+    return "".join(
+        f"PREFIX {name}: <{ns}>\n" for name, ns in ws.prefixes.items() if name not in declared
+    )
+
+
+# ---------------------------------------------------------------------------
+# Results
+
+
+@dataclass
+class QueryResult:
+    """What a query gave. Rows and triples are iterators: they stream, once."""
+
+    kind: str  # "select" | "ask" | "graph"
+    variables: list[str] = field(default_factory=list)
+    rows: Iterator[tuple] = field(default_factory=lambda: iter(()))
+    boolean: bool | None = None
+    triples: Iterator[ox.Triple] = field(default_factory=lambda: iter(()))
+
+
+_ERROR_AT = re.compile(r"^error at (\d+):(\d+): (.*)$", re.S)
+
+
+def syntax_error(text: str, exc: Exception, where: str = "query") -> QueryError:
+    """A one-line-plus-caret message for a SPARQL syntax error."""
+    msg = str(exc).strip()
+    m = _ERROR_AT.match(msg)
+    if not m:
+        return QueryError(f"{where}: SPARQL syntax error: {msg}")
+    line, col, cause = int(m.group(1)), int(m.group(2)), m.group(3)
+    lines = text.splitlines() or [""]
+    shown = lines[line - 1] if 0 < line <= len(lines) else ""
+    caret = " " * max(col - 1, 0) + "^"
+    return QueryError(f"{where}:{line}:{col}: SPARQL syntax error: {cause}\n  {shown}\n  {caret}")
+
+
+def _check_guards(text: str, allow_update: bool, allow_service: bool) -> str:
+    form = query_form(text)
+    if form == "UPDATE" and not allow_update:
+        raise QueryError(
+            "this is a SPARQL update, which changes the store; "
+            "refused (give --allow-update to run it)"
+        )
+    if has_service(text) and not allow_service:
+        raise QueryError(
+            "the query holds a SERVICE clause, which would send requests over the network; "
+            "refused (give --allow-service to run it)"
+        )
+    return form
+
+
+# ---------------------------------------------------------------------------
+# Backends
+
+
+class Backend:
+    """Where queries run. ``ws`` is the workspace; ``graph_names`` maps each current
+    content graph IRI to its graph name."""
+
+    ws: Workspace
+    graph_names: dict[str, str]
+
+    def content_graphs(self, graphs: list[str] | None) -> list[str]:
+        """Content graph IRIs for graph names (``None``: all current graphs)."""
+        if graphs is None:
+            return sorted(self.graph_names)
+        by_name = {v: k for k, v in self.graph_names.items()}
+        missing = [g for g in graphs if g not in by_name]
+        if missing:
+            raise KgkitError(
+                f"no graph named {missing[0]!r} "
+                f"(graphs: {', '.join(sorted(by_name)) or 'none yet'})"
+            )
+        return sorted({by_name[g] for g in graphs})
+
+    def execute(self, text: str, form: str, graphs: list[str] | None) -> QueryResult:
+        raise NotImplementedError
+
+
+class EmbeddedBackend(Backend):
+    """The workspace store, opened by :func:`connect`."""
+
+    def __init__(self, ws: Workspace, store: ox.Store, writable: bool):
+        self.ws = ws
+        self.store = store
+        self.writable = writable
+        self.graph_names = {iri: name for name, iri in current_graphs(store).items()}
+
+    def execute(self, text: str, form: str, graphs: list[str] | None) -> QueryResult:
+        if form == "UPDATE":
+            if not self.writable:
+                raise QueryError("the store is open read-only; an update needs --allow-update")
+            try:
+                self.store.update(text, prefixes=dict(self.ws.prefixes))
+            except SyntaxError as exc:
+                raise syntax_error(text, exc, "update") from None
+            return QueryResult(kind="ask", boolean=True)
+        dataset = [ox.NamedNode(g) for g in self.content_graphs(graphs)]
+        try:
+            res = self.store.query(
+                text,
+                prefixes=dict(self.ws.prefixes),
+                default_graph=dataset,
+                named_graphs=dataset,
+            )
+        except SyntaxError as exc:
+            raise syntax_error(text, exc) from None
+        except OSError as exc:
+            raise QueryError(f"query failed: {exc}") from None
+        return _wrap(res, text)
+
+
+def _wrap(res, text: str) -> QueryResult:
+    if isinstance(res, ox.QueryBoolean):
+        return QueryResult(kind="ask", boolean=bool(res))
+    if isinstance(res, ox.QuerySolutions):
+        variables = [v.value for v in res.variables]
+        return QueryResult(kind="select", variables=variables, rows=_solution_rows(res, text))
+    return QueryResult(kind="graph", triples=_guarded(res, text))
+
+
+def _solution_rows(res: ox.QuerySolutions, text: str) -> Iterator[tuple]:
+    try:
+        for sol in res:
+            yield tuple(sol)
+    except (OSError, SyntaxError) as exc:
+        raise QueryError(f"query failed while reading results: {exc}") from None
+
+
+def _guarded(it: Iterable, text: str) -> Iterator:
+    try:
+        yield from it
+    except (OSError, SyntaxError) as exc:
+        raise QueryError(f"query failed while reading results: {exc}") from None
+
+
+_REGISTRY_QUERY = f"""SELECT ?name ?content WHERE {{
+  GRAPH {PROVENANCE_GRAPH} {{ ?g <{KG}current> ?import .
+    ?import <{KG}graphName> ?name ; <{KG}content> ?content }} }}"""
+
+
+class EndpointBackend(Backend):
+    """A remote SPARQL 1.1 endpoint, spoken to with the SPARQL 1.1 Protocol.
+
+    When the endpoint serves a kgkit store (it holds the provenance graph), queries
+    see its current content graphs exactly as they would locally, through the
+    protocol's ``default-graph-uri`` and ``named-graph-uri`` parameters. Otherwise
+    they see the endpoint's own default dataset and ``--graph`` is not available.
+    """
+
+    def __init__(self, ws: Workspace, url: str, timeout: float):
+        self.ws = ws
+        self.url = url
+        self.timeout = timeout
+        res = self._post({"query": _REGISTRY_QUERY}, "application/sparql-results+json")
+        with res:
+            sols = ox.parse_query_results(res.read(), ox.QueryResultsFormat.JSON)
+        self.graph_names = {s["content"].value: s["name"].value for s in sols}
+
+    def _post(self, params: dict, accept: str, dataset: list[str] | None = None):
+        body = list(params.items())
+        for g in dataset or []:
+            body += [("default-graph-uri", g), ("named-graph-uri", g)]
+        data = urllib.parse.urlencode(body).encode()
+        req = urllib.request.Request(
+            self.url,
+            data=data,
+            headers={
+                "Accept": accept,
+                "Content-Type": "application/x-www-form-urlencoded",
+                "User-Agent": f"kgkit/{kgkit.__version__}",
+            },
+        )
+        try:
+            return urllib.request.urlopen(req, timeout=self.timeout)
+        except urllib.error.HTTPError as exc:
+            detail = exc.read(2000).decode("utf-8", "replace").strip().splitlines()
+            first = detail[0] if detail else exc.reason
+            raise QueryError(f"{self.url}: HTTP {exc.code} {exc.reason}: {first}") from None
+        except TimeoutError:
+            raise QueryError(f"{self.url}: no answer within {self.timeout:g} s") from None
+        except urllib.error.URLError as exc:
+            reason = exc.reason
+            if isinstance(reason, TimeoutError | socket.timeout):
+                raise QueryError(f"{self.url}: no answer within {self.timeout:g} s") from None
+            raise QueryError(f"{self.url}: cannot reach the endpoint ({reason})") from None
+        except OSError as exc:
+            raise QueryError(f"{self.url}: cannot reach the endpoint ({exc})") from None
+
+    def execute(self, text: str, form: str, graphs: list[str] | None) -> QueryResult:
+        if form == "UPDATE":
+            raise QueryError(f"{self.url}: kgkit sends no updates to a remote endpoint")
+        full = _prologue(self.ws, text) + text
+        if not has_service(text):
+            # parse it here first, for the same syntax errors as the store gives;
+            # an empty in-memory store answers at once
+            try:
+                ox.Store().query(text, prefixes=dict(self.ws.prefixes))
+            except SyntaxError as exc:
+                raise syntax_error(text, exc) from None
+        dataset = self.content_graphs(graphs) if self.graph_names else None
+        if graphs is not None and not self.graph_names:
+            raise KgkitError(f"{self.url}: the endpoint has no kgkit graphs; drop --graph")
+        if form in ("CONSTRUCT", "DESCRIBE"):
+            res = self._post({"query": full}, "application/n-triples", dataset)
+            return QueryResult(kind="graph", triples=self._triples(res))
+        res = self._post({"query": full}, "application/sparql-results+json", dataset)
+        try:
+            parsed = ox.parse_query_results(res, ox.QueryResultsFormat.JSON)
+        except SyntaxError as exc:
+            res.close()
+            raise QueryError(f"{self.url}: malformed results ({exc})") from None
+        if isinstance(parsed, ox.QueryBoolean):
+            res.close()
+            return QueryResult(kind="ask", boolean=bool(parsed))
+        variables = [v.value for v in parsed.variables]
+        return QueryResult(kind="select", variables=variables, rows=self._rows(parsed, res))
+
+    def _rows(self, parsed, res) -> Iterator[tuple]:
+        try:
+            for sol in parsed:
+                yield tuple(sol)
+        except (SyntaxError, OSError) as exc:
+            raise QueryError(f"{self.url}: results broke off ({exc})") from None
+        finally:
+            res.close()
+
+    def _triples(self, res) -> Iterator[ox.Triple]:
+        try:
+            for q in ox.parse(res, ox.RdfFormat.N_TRIPLES):
+                yield ox.Triple(q.subject, q.predicate, q.object)
+        except (SyntaxError, OSError) as exc:
+            raise QueryError(f"{self.url}: results broke off ({exc})") from None
+        finally:
+            res.close()
+
+
+@contextlib.contextmanager
+def connect(
+    ws: Workspace, write: bool = False, timeout: float = 60.0, endpoint: str | None = None
+) -> Iterator[Backend]:
+    """Open the backend of a workspace: its store (read-only unless ``write``), or the
+    endpoint named by ``endpoint`` or by ``kgkit.yaml``.
+
+    ``timeout`` (seconds) bounds each request to an endpoint.
+    """
+    url = endpoint or ws.config.endpoint
+    if url:
+        yield EndpointBackend(ws, url, timeout)
+        return
+    with open_store(ws.store_path, write=write) as store:
+        yield EmbeddedBackend(ws, store, write)
+
+
+def run_query(
+    backend: Backend,
+    sparql: str,
+    graphs: list[str] | None = None,
+    allow_update: bool = False,
+    allow_service: bool = False,
+) -> QueryResult:
+    """Run one SPARQL query (or, with ``allow_update``, an update) on a backend.
+
+    ``graphs``: graph names to query (default: every current graph). Workspace
+    prefixes are available without being declared.
+    """
+    form = _check_guards(sparql, allow_update, allow_service)
+    return backend.execute(sparql, form, graphs)
+
+
+# ---------------------------------------------------------------------------
+# Formatting
+
+
+def _json_term(term) -> dict:
+    if isinstance(term, ox.NamedNode):
+        return {"type": "uri", "value": term.value}
+    if isinstance(term, ox.BlankNode):
+        return {"type": "bnode", "value": term.value}
+    if isinstance(term, ox.Literal):
+        out = {"type": "literal", "value": term.value}
+        if term.language:
+            out["xml:lang"] = term.language
+        elif term.datatype.value != XSD_STRING:
+            out["datatype"] = term.datatype.value
+        return out
+    if isinstance(term, ox.Triple):
+        return {
+            "type": "triple",
+            "value": {
+                "subject": _json_term(term.subject),
+                "predicate": _json_term(term.predicate),
+                "object": _json_term(term.object),
+            },
+        }
+    raise TypeError(f"not an RDF term: {term!r}")
+
+
+def _write_json(res: QueryResult, out: TextIO) -> None:
+    # W3C SPARQL 1.1 Query Results JSON Format, one binding per line so it streams
+    if res.kind == "ask":
+        out.write(json.dumps({"head": {}, "boolean": bool(res.boolean)}) + "\n")
+        return
+    out.write('{"head": {"vars": ' + json.dumps(res.variables) + '}, "results": {"bindings": [')
+    names = res.variables
+    first = True
+    dumps = json.dumps
+    for row in res.rows:
+        binding = {n: _json_term(t) for n, t in zip(names, row, strict=True) if t is not None}
+        out.write(("\n" if first else ",\n") + dumps(binding, ensure_ascii=False))
+        first = False
+    out.write("\n]}}\n")
+
+
+def _csv_value(term) -> str:
+    if term is None:
+        return ""
+    if isinstance(term, ox.BlankNode):
+        return "_:" + term.value
+    if isinstance(term, ox.NamedNode | ox.Literal):
+        return term.value
+    return str(term)
+
+
+def _write_csv(res: QueryResult, out: TextIO) -> None:
+    # W3C SPARQL 1.1 Query Results CSV: RFC 4180 quoting, CRLF line ends, values only
+    w = csv.writer(out, lineterminator="\r\n")
+    w.writerow(res.variables)
+    for row in res.rows:
+        w.writerow([_csv_value(t) for t in row])
+
+
+def _write_tsv(res: QueryResult, out: TextIO) -> None:
+    # W3C SPARQL 1.1 Query Results TSV: "?var" header, terms in SPARQL/Turtle syntax
+    out.write("\t".join("?" + v for v in res.variables) + "\n")
+    for row in res.rows:
+        out.write("\t".join("" if t is None else str(t) for t in row) + "\n")
+
+
+def format_term(term, ws: Workspace | None) -> str:
+    """A term as a person reads it: CURIEs, bare text with ``@lang``, numbers as is."""
+    if term is None:
+        return ""
+    if isinstance(term, ox.NamedNode):
+        return ws.compact(term.value) if ws else f"<{term.value}>"
+    if isinstance(term, ox.BlankNode):
+        return "_:" + term.value
+    if isinstance(term, ox.Literal):
+        text = term.value.replace("\\", "\\\\").replace("\n", "\\n").replace("\t", "\\t")
+        text = text.replace("\r", "\\r")
+        if term.language:
+            return f"{text}@{term.language}"
+        dt = term.datatype.value
+        if dt == XSD_STRING or dt in _NUMERIC:
+            return text
+        return f"{text}^^{ws.compact(dt) if ws else '<' + dt + '>'}"
+    return str(term)
+
+
+def _cut(text: str, width: int) -> str:
+    return text if len(text) <= width else text[: max(width - 1, 0)] + "…"
+
+
+def _write_table(
+    res: QueryResult, out: TextIO, ws: Workspace | None, width: int | None, sample: int = 100
+) -> None:
+    if res.kind == "ask":
+        out.write(("true" if res.boolean else "false") + "\n")
+        return
+    names = ["?" + v for v in res.variables]
+    total = width or shutil.get_terminal_size((120, 24)).columns
+    head: list[list[str]] = []
+    rows = iter(res.rows)
+    count = 0
+    for row in rows:
+        head.append([format_term(t, ws) for t in row])
+        if len(head) >= sample:
+            break
+    n = max(len(names), 1)
+    widths = [len(x) for x in names]
+    for r in head:
+        widths = [max(w, len(c)) for w, c in zip(widths, r, strict=True)]
+    room = max(total - 2 * (n - 1), n * 8)
+    if sum(widths) > room:
+        # shrink the widest columns first until the table fits
+        budget = room
+        fair = budget // n
+        small = [w for w in widths if w <= fair]
+        big = n - len(small)
+        cap = max((budget - sum(small)) // max(big, 1), 8)
+        widths = [min(w, cap) for w in widths]
+
+    def line(cells: list[str]) -> str:
+        return "  ".join(_cut(c, w).ljust(w) for c, w in zip(cells, widths, strict=True)).rstrip()
+
+    out.write(line(names) + "\n")
+    out.write("  ".join("-" * w for w in widths) + "\n")
+    for r in head:
+        out.write(line(r) + "\n")
+        count += 1
+    for row in rows:
+        out.write(line([format_term(t, ws) for t in row]) + "\n")
+        count += 1
+    out.write(f"({count} row{'s' if count != 1 else ''})\n")
+
+
+def _write_graph(res: QueryResult, out: TextIO, fmt: str, ws: Workspace | None) -> None:
+    if fmt == "ttl":
+        prefixes = dict(ws.prefixes) if ws else None
+        buf = _TextSink(out)
+        ox.serialize(res.triples, buf, ox.RdfFormat.TURTLE, prefixes=prefixes)
+        return
+    for t in res.triples:
+        out.write(f"{t} .\n")
+
+
+class _TextSink(io.RawIOBase):
+    """A binary writer over a text stream, so that pyoxigraph can stream into it."""
+
+    def __init__(self, out: TextIO):
+        self.out = out
+
+    def writable(self) -> bool:
+        return True
+
+    def write(self, b) -> int:
+        self.out.write(bytes(b).decode("utf-8"))
+        return len(b)
+
+
+def write_result(
+    res: QueryResult,
+    out: TextIO,
+    fmt: str = "table",
+    ws: Workspace | None = None,
+    width: int | None = None,
+) -> None:
+    """Write a result to a text stream in one of :data:`FORMATS`.
+
+    ``table`` is for people (CURIEs, fitted columns, ``width`` characters wide);
+    ``json``, ``csv`` and ``tsv`` follow the W3C results formats; ``nt`` and ``ttl``
+    are for CONSTRUCT and DESCRIBE results (``table`` shows those as N-Triples too).
+    """
+    if fmt not in FORMATS:
+        raise KgkitError(f"unknown output format {fmt!r} (formats: {', '.join(FORMATS)})")
+    if res.kind == "graph":
+        if fmt in ("json", "csv", "tsv"):
+            raise KgkitError(
+                f"--format {fmt} is for SELECT and ASK results; "
+                "a CONSTRUCT or DESCRIBE query gives --format nt or ttl"
+            )
+        _write_graph(res, out, fmt, ws)
+        return
+    if fmt in ("nt", "ttl"):
+        raise KgkitError(f"--format {fmt} is for CONSTRUCT and DESCRIBE results")
+    if res.kind == "ask" and fmt in ("csv", "tsv"):
+        # the W3C CSV/TSV formats have no boolean form
+        out.write(("true" if res.boolean else "false") + "\n")
+        return
+    if fmt == "json":
+        _write_json(res, out)
+    elif fmt == "csv":
+        _write_csv(res, out)
+    elif fmt == "tsv":
+        _write_tsv(res, out)
+    else:
+        _write_table(res, out, ws, width)
