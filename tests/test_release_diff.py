@@ -201,7 +201,7 @@ def test_changelog_markdown():
     new["rowing"] = topic("rowing", "rowing", ["sport"])
     d = diff_topics(base(), new)
     version, level = next_version(Version(1, 0, 0), d.kinds())
-    stale = [{"action": "add_alias", "topic": "ghost", "reason": "no topic 'ghost'"}]
+    stale = [{"action": "add_alias", "edit": 0, "target": "ghost", "alias": "x", "reason": "gone"}]
     data = changelog_data("sport", str(version), "1.0.0", d, level, False, stale)
     assert data["counts"] == {"removed": 1, "added": 1}
     assert changelog_markdown(data, d) == (
@@ -212,5 +212,5 @@ def test_changelog_markdown():
         '## Removed\n\n- removed sailing "sailing"  (graph)\n\n'
         '## Added\n\n- added rowing "rowing"  (graph)\n\n'
         "## Curation edits that no longer apply\n\n"
-        '- action: "add_alias", topic: "ghost" (no topic \'ghost\')\n'
+        '- edit 0: add_alias ghost (alias: "x"): gone\n'
     )

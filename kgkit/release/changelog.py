@@ -94,9 +94,19 @@ def changelog_markdown(data: dict, diff: VocabDiff) -> str:
 
 
 def _edit_line(edit) -> str:
-    if isinstance(edit, dict):
-        reason = edit.get("reason")
-        rest = {k: v for k, v in sorted(edit.items()) if k != "reason"}
-        text = ", ".join(f"{k}: {json.dumps(v, ensure_ascii=False)}" for k, v in rest.items())
-        return f"{text} ({reason})" if reason else text
-    return str(edit)
+    if not isinstance(edit, dict):
+        return str(edit)
+    skip = {"edit", "action", "target", "reason", "note"}
+    args = ", ".join(
+        f"{k}: {json.dumps(v, ensure_ascii=False)}"
+        for k, v in sorted(edit.items())
+        if k not in skip
+    )
+    head = f"edit {edit['edit']}: " if "edit" in edit else ""
+    what = " ".join(str(edit[k]) for k in ("action", "target") if k in edit)
+    line = f"{head}{what}" + (f" ({args})" if args else "")
+    if edit.get("reason"):
+        line += f": {edit['reason']}"
+    if edit.get("note"):
+        line += f" [note: {edit['note']}]"
+    return line

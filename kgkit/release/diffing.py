@@ -205,7 +205,8 @@ def read_topics(path: Path) -> dict[str, dict]:
 _EDIT_KINDS = {
     "add_alias": ("alias-added",),
     "remove_alias": ("alias-removed",),
-    "set_label": ("relabelled",),
+    # the label it replaces stays as an alias; the new one may have been an alias
+    "set_label": ("relabelled", "alias-added", "alias-removed"),
     "exclude": ("removed", "deprecated"),
     "exclude_subtree": ("removed", "deprecated"),
     "add_parent": ("moved",),
