@@ -42,7 +42,8 @@ def dump(topics, extra=()):
     for tid, (en, de, parent, aliases) in topics.items():
         s = f"<{G}{tid}>"
         lines.append(f'{s} <{PREF}> "{en}"@en .')
-        lines.append(f'{s} <{PREF}> "{de}"@de .')
+        if de is not None:
+            lines.append(f'{s} <{PREF}> "{de}"@de .')
         for a in aliases:
             lines.append(f'{s} <{ALT}> "{a}"@en .')
         if parent:
@@ -270,3 +271,73 @@ def test_failed_release_leaves_nothing(workspace, monkeypatch):
         make_release(workspace, spec)
     home = workspace.vocab_dir / "sport"
     assert sorted(p.name for p in home.iterdir()) == ["build"]
+
+
+def _concept_blocks(ttl: str) -> dict[str, str]:
+    """Turtle text of the writer's output cut into blocks: subject IRI -> block."""
+    blocks = {}
+    for block in ttl.split("\n\n"):
+        head = block.split(" ", 1)[0]
+        blocks[head] = block
+    return blocks
+
+
+def test_merge_by_curation_and_lent_labels(workspace):
+    """A curation merge deprecates with the merge target as replacement; re-writing the
+    files for a deprecation keeps every other byte of the compile, lent labels included."""
+    ws = workspace
+    topics = dict(TOPICS_1)
+    topics["sea-kayaking"] = ("sea kayaking", None, "water-sports", [])  # no German label
+    spec = setup(ws, dump(topics))
+    spec.write_text(SPEC + "  fallback: [en]\n", encoding="utf-8")
+    r1 = make_release(ws, spec)
+    assert "fallback-label:de" in topics_of(r1.path)["sea-kayaking"]["flags"]
+    # the graph drops dragon-boat without any redirect: deprecated, no replacement
+    setup(ws, dump({k: v for k, v in topics.items() if k != "dragon-boat"}), "dump-2.nt")
+    with open(ws.vocab_dir / "sport.curation.yaml", "a", encoding="utf-8") as fh:
+        fh.write("  - merge: {topic: harbour-swim, into: water-sports}\n")
+    spec.write_text(SPEC + "  fallback: [en]\n", encoding="utf-8")
+    r2 = make_release(ws, spec)
+    assert r2.version == "2.0.0"
+    got = {(c.kind, c.topic): (c.cause, c.after) for c in r2.diff.changes}
+    assert got[("deprecated", "harbour-swim")] == ("curation", "water-sports")
+    assert got[("deprecated", "dragon-boat")] == ("graph", None)
+    assert got[("alias-added", "water-sports")][0] == "curation"
+    assert r2.deprecated == [{"id": "dragon-boat", "replaced_by": None, "via": None}]
+    t = topics_of(r2.path)
+    assert t["harbour-swim"]["replaced_by"] == "water-sports"
+    assert t["dragon-boat"]["status"] == "deprecated" and t["dragon-boat"]["replaced_by"] is None
+    # the release's SKOS is the build's plus the deprecated concept, byte for byte
+    build = _concept_blocks((ws.vocab_dir / "sport" / "build" / "skos.ttl").read_text())
+    rel = _concept_blocks((r2.path / "skos.ttl").read_text())
+    extra = set(rel) - set(build)
+    assert extra == {f"<{V}dragon-boat>"}
+    assert all(rel[k] == build[k] for k in build)
+    assert f"<{V}sea-kayaking>" in build and '"sea kayaking"@en' in rel[f"<{V}sea-kayaking>"]
+    assert (r2.path / "lexicon.tsv").read_bytes() == (
+        ws.vocab_dir / "sport" / "build" / "lexicon.tsv"
+    ).read_bytes()
+
+
+def test_replacement_from_recorded_same_as():
+    """The old topic's own same_as links (kept in the previous release) name its successor."""
+    from kgkit.release.release import find_replacements
+
+    gone = {
+        "dragon-boat": {
+            "id": "dragon-boat",
+            "source": G + "dragon-boat",
+            "same_as": [G + "dragon-boat-racing"],
+            "status": "active",
+        }
+    }
+    new = {
+        "dragon-boat-racing": {"id": "dragon-boat-racing", "source": G + "dragon-boat-racing",
+                               "same_as": [], "status": "active"},
+        "paddling": {"id": "paddling", "source": G + "paddling",
+                     "same_as": [G + "dragon-boat"], "status": "active"},
+    }  # fmt: skip
+    # both directions count; of several candidates the lowest id wins
+    assert find_replacements(None, gone, new) == {"dragon-boat": ("dragon-boat-racing", "same-as")}
+    new["dragon-boat-racing"]["status"] = "deprecated"
+    assert find_replacements(None, gone, new) == {"dragon-boat": ("paddling", "same-as")}

@@ -31,6 +31,7 @@ import rdflib
 from rdflib.namespace import OWL, RDF, SKOS
 
 from kgkit.errors import KgkitError, ParseError
+from kgkit.vocab.aliases import match_key  # the lexicon's match key
 
 __all__ = ["CHECKS", "Check", "Finding", "LintReport", "LintTargetError", "lint_graph", "lint_path"]
 
@@ -158,11 +159,6 @@ def _is_unprintable(ch: str) -> bool:
     return unicodedata.category(ch) in {"Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"}
 
 
-def _match_key(text: str) -> str:
-    # same folding as the lexicon's match key: NFKC, white space folded, casefold
-    return " ".join(unicodedata.normalize("NFKC", text).split()).casefold()
-
-
 def _lang(lit: rdflib.term.Node) -> str:
     return (getattr(lit, "language", None) or "").lower()
 
@@ -256,7 +252,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                     )
                 seen.setdefault(key, kind)
                 if kind != "hidden" and c in live:
-                    shared[(_match_key(text), _lang(lit))].add(c)
+                    shared[(match_key(text), _lang(lit))].add(c)
     for (key, lang), owners in sorted(shared.items()):
         if len(owners) > 1:
             names = ", ".join(sorted(str(o) for o in owners))
