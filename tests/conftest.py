@@ -44,3 +44,15 @@ def kgkit(runner, workspace):
         return runner.invoke(cli, ["--workspace", str(workspace.root), *args], input=input)
 
     return run
+
+
+@pytest.fixture(scope="session")
+def demo_workspace(tmp_path_factory):
+    """The demo run once for the session: its folder, steps, releases and review page."""
+    from kgkit.demo import run_demo
+
+    root = tmp_path_factory.mktemp("demo") / "ws"
+    steps = run_demo(root)
+    releases = sorted(p for p in (root / "vocab" / "tidewell").iterdir() if p.name[0].isdigit())
+    (page,) = sorted(root.glob("*.html"))
+    return {"root": root, "steps": steps, "releases": releases, "page": page}

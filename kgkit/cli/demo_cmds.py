@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 
-from kgkit.demo import run_demo
+from kgkit.demo import iter_demo
 
 
 @click.command("demo")
@@ -19,7 +19,7 @@ def demo_command(directory: Path | None) -> None:
     """
     if directory is None:
         directory = Path(tempfile.mkdtemp(prefix="kgkit-demo-"))
-    for n, step in enumerate(run_demo(directory), 1):
+    for n, step in enumerate(iter_demo(directory), 1):
         click.echo(f"{n}. {step.title}")
         for line in step.lines:
             click.echo(f"   {line}")

@@ -1,68 +1,255 @@
 """The demo: an invented knowledge graph of the Tidewell Media Cooperative, and a run of the job.
 
 Everything in the demo data is invented: the cooperative, its towns, its people.
+:func:`run_demo` builds a workspace and runs the whole job on it, step by step,
+with the same library functions the commands call:
+
+1. make the workspace; write the dump (N-Triples and entity records) and a corpus;
+2. import it, sliced to the profile and two languages, bad lines set aside;
+3. explore it with templates;
+4. compile the vocabulary spec and release 1.0.0;
+5. probe the corpus and turn the too-common aliases into curation edits, add a
+   few hand edits;
+6. import the refreshed dump, compile and release again, with its changelog;
+7. write the review page, and probe one article.
 """
 
 from __future__ import annotations
 
+import json
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
+from kgkit.demo.generate import REFRESH, write_corpus, write_dumps
+from kgkit.errors import KgkitError
 from kgkit.ingest import ImportOptions, import_files, make_slice
-from kgkit.store import list_graphs, open_store
-from kgkit.workspace import init_workspace
+from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
 
-__all__ = ["DemoStep", "run_demo"]
+__all__ = ["DemoStep", "DemoError", "iter_demo", "run_demo", "SPEC_NAME"]
+
+SPEC_NAME = "tidewell"
+_PREFIX_LINE = "  tw:   http://demo.kgkit.invalid/e/\n"
+
+
+class DemoError(KgkitError):
+    """The demo cannot run in the folder given."""
 
 
 @dataclass
 class DemoStep:
-    """One step of the demo run: what was done, and the files it left."""
+    """One step of the demo run: what was done, what it showed, and the files it left."""
 
     title: str
     lines: list[str] = field(default_factory=list)
     files: list[Path] = field(default_factory=list)
 
 
-def run_demo(directory: Path) -> list[DemoStep]:
-    """Build the demo workspace in ``directory`` and run the job on it."""
-    directory = Path(directory)
-    steps: list[DemoStep] = []
-    ws = init_workspace(directory, languages=("en", "de"))
-    steps.append(DemoStep("made the workspace", files=[ws.root / "kgkit.yaml", ws.store_path]))
+def _asset(name: str) -> str:
+    return resources.files("kgkit.demo").joinpath(name).read_text(encoding="utf-8")
 
-    dumps = directory / "dumps"
-    dumps.mkdir(exist_ok=True)
-    core = dumps / "tidewell-core.nt"
-    core.write_bytes(resources.files("kgkit.demo").joinpath("core.nt").read_bytes())
-    rejects = dumps / "tidewell-core.rejects.txt"
+
+def _add_prefix(root: Path) -> None:
+    """Give the demo workspace the ``tw:`` prefix for its entities."""
+    path = root / CONFIG_NAME
+    text = path.read_text(encoding="utf-8")
+    text = text.replace("\nprefixes:\n", "\nprefixes:\n" + _PREFIX_LINE, 1)
+    tmp = path.with_name(path.name + ".tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(path)
+
+
+def _counts(s) -> str:
+    return (
+        f"read {s.read:,} = loaded {s.loaded:,} + duplicates {s.duplicates:,} "
+        f"+ filtered {s.filtered:,} + rejected {s.rejected:,}"
+    )
+
+
+def _import(ws, graph: str, files: list[Path], rejects: Path, sliced: bool):
     opts = ImportOptions(
-        graph="tidewell",
+        graph=graph,
         on_error="skip",
         rejects=rejects,
-        slice=make_slice(ws, keep="profile", languages=["en", "de"]),
+        slice=make_slice(ws, keep="profile", languages=["en", "de"]) if sliced else make_slice(ws),
     )
-    (summary,) = import_files(ws, [str(core)], opts)
-    steps.append(
+    (summary,) = import_files(ws, [str(f) for f in files], opts)
+    return summary
+
+
+def _rejected_causes(path: Path, limit: int = 3) -> list[str]:
+    if not path.is_file():
+        return []
+    lines = [x[2:] for x in path.read_text(encoding="utf-8").splitlines() if x.startswith("# ")]
+    out = [f"set aside: {x}" for x in lines[:limit]]
+    if len(lines) > limit:
+        out.append(f"... and {len(lines) - limit} more")
+    return out
+
+
+def _explore(ws) -> DemoStep:
+    from kgkit.query import connect
+    from kgkit.templates import run_template
+
+    step = DemoStep("explored the graph with templates")
+    with connect(ws) as backend:
+        res = run_template(backend, "descendants", {"root": "tw:water-sports", "max_depth": "2"})
+        rows = list(res.rows)
+        step.lines.append(f"descendants of tw:water-sports to depth 2: {len(rows)} entities, e.g.")
+        shown = sorted((int(r[1].value), ws.compact(r[0].value)) for r in rows)[:4]
+        step.lines += [f"  depth {d}  {c}" for d, c in shown]
+        res = run_template(backend, "descendants", {"root": "tw:topic"})
+        step.lines.append(f"descendants of tw:topic (the whole hierarchy): {len(list(res.rows))}")
+    return step
+
+
+def _release(ws, spec: Path):
+    from kgkit.release.release import make_release
+
+    return make_release(ws, spec)
+
+
+def _topline(path: Path, n: int) -> list[str]:
+    return path.read_text(encoding="utf-8").splitlines()[:n]
+
+
+def run_demo(directory: Path) -> list[DemoStep]:
+    """Build the demo workspace in ``directory`` and run the job on it.
+
+    The folder must not hold a workspace yet. Returns the steps, in order.
+    """
+    return list(iter_demo(directory))
+
+
+def iter_demo(directory: Path) -> Iterator[DemoStep]:
+    """:func:`run_demo`, one step at a time (each is yielded when it is done)."""
+    from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
+
+    directory = Path(directory)
+    if (directory / CONFIG_NAME).exists():
+        raise DemoError(f"{directory} already holds a workspace; give a new folder")
+    init_workspace(directory, languages=("en", "de"))
+    _add_prefix(directory)
+    ws = load_workspace(directory)
+    yield DemoStep("made the workspace", files=[ws.root / CONFIG_NAME, ws.store_path])
+
+    dumps = write_dumps(directory / "dumps")
+    corpus = write_corpus(directory / "corpus")
+    yield (
         DemoStep(
-            "imported the dump, keeping profile predicates in English and German",
-            [
-                f"read {summary.read} = loaded {summary.loaded} + duplicates "
-                f"{summary.duplicates} + filtered {summary.filtered} + rejected {summary.rejected}"
-            ],
-            [core, rejects],
+            "wrote the invented dump of the Tidewell Media Cooperative and a corpus",
+            [f"{len(corpus)} articles in {directory / 'corpus'}"],
+            [*dumps.values()],
         )
     )
-    with open_store(ws.store_path) as store:
-        graphs = list_graphs(store)
-    steps.append(
+
+    rejects_dir = directory / "rejects"
+    topics_rejects = rejects_dir / "tidewell.rejects.txt"
+    s = _import(ws, "tidewell", [dumps["core"], dumps["topics"]], topics_rejects, sliced=True)
+    yield (
         DemoStep(
-            "listed the graphs",
-            [
-                f"{g.name}: {g.counts.get('loaded', 0)} statements from {g.files[0].name}"
-                for g in graphs
-            ],
+            "imported the topics into graph 'tidewell', keeping profile predicates in en and de",
+            [_counts(s), *_rejected_causes(topics_rejects)],
+            [topics_rejects],
         )
     )
-    return steps
+    archive_rejects = rejects_dir / "archive.rejects.txt"
+    s = _import(ws, "archive", [dumps["archive"]], archive_rejects, sliced=False)
+    yield (
+        DemoStep(
+            "imported people and clips (entity records) into graph 'archive'",
+            [_counts(s), *_rejected_causes(archive_rejects)],
+            [archive_rejects],
+        )
+    )
+
+    yield _explore(ws)
+
+    vocab = ws.vocab_dir
+    spec = vocab / f"{SPEC_NAME}.yaml"
+    spec.write_text(_asset("tidewell.yaml"), encoding="utf-8")
+    curation = vocab / f"{SPEC_NAME}.curation.yaml"
+    curation.write_text(_asset("curation-start.yaml"), encoding="utf-8")
+
+    from kgkit.vocab.compile import compile_vocabulary
+
+    result = compile_vocabulary(ws, spec)
+    sm = result.summary
+    yield (
+        DemoStep(
+            "compiled the vocabulary spec",
+            [
+                f"{sm['topics']} topics, {sm['aliases']} aliases; dropped {sm['dropped']} "
+                f"topics and {sm['dropped_aliases']} aliases; {sm['cycles_broken']} cycle "
+                f"broken; {sm['ambiguous_keys']} ambiguous keys",
+                *_topline(result.output / "report.txt", 12),
+            ],
+            [spec, result.output],
+        )
+    )
+
+    first = _release(ws, spec)
+    yield DemoStep(f"released {SPEC_NAME} {first.version}", [], [Path(first.path)])
+
+    lexicon = load_lexicon(first.path)
+    report = probe_corpus(lexicon, directory / "corpus")
+    edits, _skipped = curation_edits_for(report)
+    lines = [f"{report.documents} documents, {report.hits} hits"]
+    for k in report.keys[:5]:
+        flag = "  too common" if k.flagged else ""
+        lines.append(f"  {k.key!r} in {k.documents} documents ({k.share:.0%}){flag}")
+    yield DemoStep("probed the corpus with release 1", lines, [])
+
+    text = curation.read_text(encoding="utf-8") + _asset("curation-edits.yaml")
+    for e in edits:
+        args = e["remove_alias"]
+        text += (
+            f"  - remove_alias: {json.dumps(args, ensure_ascii=False)}\n"
+            f"    note: {json.dumps(e['note'], ensure_ascii=False)}\n"
+        )
+    curation.write_text(text, encoding="utf-8")
+    from kgkit.vocab.curation import load_curation
+
+    yield (
+        DemoStep(
+            "curated: hand edits, plus the too-common aliases the probe flagged",
+            [f"{len(load_curation(curation))} edits in the curation file"],
+            [curation],
+        )
+    )
+
+    refreshed = write_dumps(directory / "dumps", refreshed=True)
+    s = _import(
+        ws, "tidewell", [refreshed["core"], refreshed["topics"]], topics_rejects, sliced=True
+    )
+    yield (
+        DemoStep(
+            "imported the refreshed dump into graph 'tidewell' (replacing it)",
+            [_counts(s), *(f"in the dump: {why}" for why, _r, _a in REFRESH)],
+            [refreshed["core"]],
+        )
+    )
+
+    second = _release(ws, spec)
+    changelog = Path(second.path) / "changelog.md"
+    yield (
+        DemoStep(
+            f"released {SPEC_NAME} {second.version}",
+            _topline(changelog, 14),
+            [Path(second.path), changelog],
+        )
+    )
+
+    from kgkit.report import write_page
+
+    page = write_page(second.path, directory / f"{SPEC_NAME}-{second.version}-review.html")
+    yield DemoStep("wrote the review page (open it in a browser)", [], [page])
+
+    article = corpus[0]
+    hits = load_lexicon(second.path).find(article.read_text(encoding="utf-8"))
+    lines = []
+    for h in hits[:6]:
+        cands = " | ".join(f"{c.topic}" for c in h.candidates)
+        lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}")
+    yield DemoStep(f"probed {article.name} with release {second.version}", lines, [])

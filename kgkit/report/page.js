@@ -206,7 +206,7 @@
     if (!t) return;
     detail.textContent = "";
     const langs = Array.from(new Set([...Object.keys(t.labels || {}),
-      ...Object.keys(t.aliases || {}), ...data.languages])).sort();
+      ...Object.keys(t.aliases || {}), ...data.languages.filter((l) => l)])).sort();
     const table = el("table", { class: "langs" },
       el("thead", {}, el("tr", {}, el("th", {}, "language"), el("th", {}, "preferred label"),
         el("th", {}, "aliases"))));
