@@ -95,7 +95,7 @@ _TOKEN = re.compile(
   | (?P<iri><[^<>"{}|^`\\\x00-\x20]*>)
   | (?P<var>[?$][A-Za-z0-9_\u00b7\u00c0-\uffff]+)
   | (?P<lang>@[A-Za-z]+(?:-[A-Za-z0-9]+)*)
-  | (?P<slot>%\{[A-Za-z_][A-Za-z0-9_]*\})
+  | (?P<slot>%\{[A-Za-z_][A-Za-z0-9_]*(?::list)?\})
   | (?P<pname>(?:[A-Za-z_\u00c0-\uffff][\w.\-\u00b7\u00c0-\uffff]*)?:
                (?:[\w\-.:\u00b7\u00c0-\uffff]|%[0-9A-Fa-f]{2}|\\.)*)
   | (?P<word>[A-Za-z_][A-Za-z0-9_]*)

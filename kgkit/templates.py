@@ -28,8 +28,10 @@ Header lines:
 Binding: values are parsed by kind into pyoxigraph terms (an ``iri`` must be a
 CURIE or ``<IRI>``, an ``integer`` an integer...) and reach the query only as a
 one-row ``VALUES`` block, serialised by pyoxigraph, placed at the start of every
-``WHERE`` group, so they bind ``?NAME``. ``predicates`` parameters fill the
-``%{NAME}`` slots as a property-path alternative of IRIs, ``(<a>|<b>)``: a VALUES
+``WHERE`` group (or, when the query has ``%{bind}`` slots, exactly there), so
+they bind ``?NAME``. ``predicates`` parameters fill the
+``%{NAME}`` slots as a property-path alternative of IRIs, ``(<a>|<b>)`` (and
+``%{NAME:list}`` slots as ``<a>, <b>``, for ``IN (...)``): a VALUES
 list of predicates is many times slower in pyoxigraph, and so are
 ``substitutions=`` on path queries (see ``DESIGN.md``). No value is ever pasted into
 the text as written.
@@ -64,6 +66,8 @@ __all__ = [
 
 KINDS = ("iri", "literal", "language", "integer", "predicates")
 XSD_INTEGER = ox.NamedNode("http://www.w3.org/2001/XMLSchema#integer")
+#: marks where the VALUES block goes, when the start of every WHERE group is not right
+BIND_SLOT = "%{bind}"
 #: fills an empty predicate list: no statement uses it, so the pattern matches nothing
 NO_PREDICATE = "http://kgkit.invalid/ns#noPredicate"
 
@@ -207,8 +211,10 @@ def _check_usage(tpl: Template, where: str) -> None:
     for tok in tokenize(tpl.body):
         if tok.kind == "var":
             vars_used.add(tok.text[1:])
+        elif tok.kind == "slot" and tok.text == BIND_SLOT:
+            where_seen = True
         elif tok.kind == "slot":
-            slots_used.add(tok.text[2:-1])
+            slots_used.add(tok.text[2:-1].split(":")[0])
         elif tok.kind == "word" and tok.text.upper() in ("WHERE", "ASK"):
             where_seen = True
     walk_limit = tpl.walk.limit if tpl.walk else None
@@ -225,6 +231,8 @@ def _check_usage(tpl: Template, where: str) -> None:
         raise TemplateError(f"{where}: slot %{{{slot}}} is not a declared predicates parameter")
     if tpl.params and not where_seen:
         raise TemplateError(f"{where}: the query needs a WHERE group to bind parameters in")
+    if tpl.param("bind"):
+        raise TemplateError(f"{where}: 'bind' is reserved for the %{{bind}} slot")
     if tpl.walk:
         w = tpl.walk
         for v in (w.src, w.dst):
@@ -355,9 +363,11 @@ def _values(tpl: Template, raw: dict[str, str], ws: Workspace) -> dict[str, obje
     return out
 
 
-def _path(iris: list[str]) -> str:
+def _path(iris: list[str], as_list: bool = False) -> str:
     iris = iris or [NO_PREDICATE]
     terms = [str(ox.NamedNode(i)) for i in iris]
+    if as_list:
+        return ", ".join(terms)
     return terms[0] if len(terms) == 1 else "(" + "|".join(terms) + ")"
 
 
@@ -384,12 +394,19 @@ def bind_template(tpl: Template, raw: dict[str, str], ws: Workspace) -> tuple[st
     pos = 0
     after_where = False
     text = tpl.body
-    for tok in tokenize(text):
-        if tok.kind == "slot":
+    tokens = list(tokenize(text))
+    explicit = any(t.text == BIND_SLOT for t in tokens)
+    for tok in tokens:
+        if tok.text == BIND_SLOT:
             pieces.append(text[pos : tok.start])
-            pieces.append(_path(values[tok.text[2:-1]]))
+            pieces.append(block)
             pos = tok.start + len(tok.text)
-        elif tok.kind == "word" and tok.text.upper() in ("WHERE", "ASK"):
+        elif tok.kind == "slot":
+            pieces.append(text[pos : tok.start])
+            slot, _, form = tok.text[2:-1].partition(":")
+            pieces.append(_path(values[slot], as_list=form == "list"))
+            pos = tok.start + len(tok.text)
+        elif tok.kind == "word" and tok.text.upper() in ("WHERE", "ASK") and not explicit:
             after_where = True
         elif after_where and tok.text == "{":
             after_where = False
