@@ -126,7 +126,9 @@ def test_attribution_to_curation():
     new["harbour-races"] = topic("harbour-races", "harbour races", ["sailing"], origin="curation")
     report = {
         "curation": {
-            "applied": [{"action": "add_alias", "topic": "canoe-polo", "alias": "polo on water"}],
+            "applied": [
+                {"action": "add_alias", "target": "ex:canoe-polo", "alias": "polo on water"}
+            ],
             "stale": [],
         }
     }
@@ -214,3 +216,47 @@ def test_changelog_markdown():
         "## Curation edits that no longer apply\n\n"
         '- edit 0: add_alias ghost (alias: "x"): gone\n'
     )
+
+
+def test_attribution_of_merges_and_excluded_subtrees():
+    old = base()
+    old["dinghy"] = topic("dinghy", "dinghy", ["sailing"])
+    old["canoe-polo"]["parents"] = ["paddle-sports", "sailing"]
+    new = base()
+    del new["sailing"]  # excluded by the curation, with its subtree
+    new["canoe-polo"]["parents"] = ["paddle-sports"]  # its parent went with the exclusion
+    new["paddle-sports"].update(status="deprecated", replaced_by="sport")  # merged
+    new["canoe-polo"]["parents"] = ["sport"]  # reattached to the merge target
+    report = {
+        "curation": {
+            "applied": [
+                {"action": "exclude", "edit": 0, "target": "<http://example.org/graph/sailing>"},
+                {"action": "merge", "edit": 1, "target": "paddle-sports", "into": "sport"},
+            ],
+            "stale": [],
+        },
+        "dropped_topics": [
+            {"id": "sailing", "reason": "excluded-by-curation:edit-0", "source": None},
+            {"id": "dinghy", "reason": "in-excluded-subtree:sailing", "source": None},
+        ],
+    }
+    d = diff_topics(old, new, None, report)
+    assert [(c.kind, c.topic, c.cause) for c in d.changes] == [
+        ("removed", "dinghy", "curation"),
+        ("removed", "sailing", "curation"),
+        ("deprecated", "paddle-sports", "curation"),
+        ("moved", "canoe-polo", "curation"),
+    ]
+    # without the report, the same changes come from the graph
+    assert {c.cause for c in diff_topics(old, new).changes} == {"graph"}
+
+
+def test_doctests():
+    import doctest
+
+    import kgkit.release.diffing
+    import kgkit.release.lint
+    import kgkit.release.versioning
+
+    for m in (kgkit.release.diffing, kgkit.release.lint, kgkit.release.versioning):
+        assert doctest.testmod(m).failed == 0, m.__name__

@@ -201,47 +201,65 @@ def read_topics(path: Path) -> dict[str, dict]:
 
 # --- attribution ---------------------------------------------------------------
 
-#: curation edit action -> change kinds it can make (and the topic keys it names)
-_EDIT_KINDS = {
-    "add_alias": ("alias-added",),
-    "remove_alias": ("alias-removed",),
+#: curation edit action -> {field of the edit naming a topic: change kinds it can make there}
+#: ("children-moved": a topic whose old or new parents include this one moved
+#: because of the edit, as when a merged or excluded topic's children are reattached)
+_EDIT_KINDS: dict[str, dict[str, tuple[str, ...]]] = {
+    "add_alias": {"target": ("alias-added",)},
+    "remove_alias": {"target": ("alias-removed",)},
     # the label it replaces stays as an alias; the new one may have been an alias
-    "set_label": ("relabelled", "alias-added", "alias-removed"),
-    "exclude": ("removed", "deprecated"),
-    "exclude_subtree": ("removed", "deprecated"),
-    "add_parent": ("moved",),
-    "remove_parent": ("moved",),
-    "merge": ("deprecated", "alias-added", "replacement-changed", "removed"),
-    "add_topic": ("added", "relabelled", "alias-added", "moved"),
+    "set_label": {"target": ("relabelled", "alias-added", "alias-removed")},
+    "exclude": {"target": ("removed", "deprecated", "children-moved")},
+    "add_parent": {"target": ("moved",)},
+    "remove_parent": {"target": ("moved",)},
+    "merge": {
+        "target": ("deprecated", "removed", "replacement-changed", "children-moved"),
+        "into": ("alias-added",),
+    },
+    "add_topic": {"target": ("added", "removed")},
 }
-_TOPIC_KEYS = ("topic", "target", "into", "id", "parent", "topics")
 
 
-def _edit_effects(report: dict | None) -> set[tuple[str, str]]:
+def _refs(*sides: dict[str, dict]) -> dict[str, str]:
+    """Every way a curation file can name a topic (id, CURIE, <IRI>, IRI) -> its id."""
+    out: dict[str, str] = {}
+    for topics in sides:
+        for tid, t in topics.items():
+            for ref in (t.get("iri"), t.get("source"), t.get("curie")):
+                if ref:
+                    out.setdefault(ref, tid)
+            if t.get("source"):
+                out.setdefault(f"<{t['source']}>", tid)
+    for topics in sides:
+        for tid in topics:
+            out[tid] = tid
+    return out
+
+
+def _edit_effects(report: dict | None, refs: dict[str, str]) -> set[tuple[str, str]]:
     """(topic id, change kind) pairs that the applied curation edits of a build can make."""
     out: set[tuple[str, str]] = set()
-    applied = ((report or {}).get("curation") or {}).get("applied") or []
+    report = report or {}
+    applied = (report.get("curation") or {}).get("applied") or []
     for edit in applied:
         if not isinstance(edit, dict):
             continue
-        action = str(edit.get("action") or edit.get("edit") or "").replace("-", "_")
-        kinds = _EDIT_KINDS.get(action)
-        if kinds is None:
-            continue
-        ids = set()
-        for key in _TOPIC_KEYS:
-            v = edit.get(key)
-            if isinstance(v, str):
-                ids.add(v)
-            elif isinstance(v, list):
-                ids.update(x for x in v if isinstance(x, str))
-        for extra in edit.get("affected") or []:
-            if isinstance(extra, str):
-                ids.add(extra)
-        # an edit on one topic can move its children or relabel through a merge
-        for i in ids:
-            for k in kinds:
-                out.add((i, k))
+        for key, kinds in _EDIT_KINDS.get(str(edit.get("action")), {}).items():
+            ref = edit.get(key)
+            if isinstance(ref, str):
+                tid = refs.get(ref, ref)
+                out.update((tid, k) for k in kinds)
+    # topics the curation excluded with a subtree: the compile names them as dropped
+    by_curation = set()
+    for d in report.get("dropped_topics") or []:
+        if str(d.get("reason", "")).startswith("excluded-by-curation"):
+            by_curation.add(d.get("id"))
+    for d in report.get("dropped_topics") or []:
+        reason = str(d.get("reason", ""))
+        if reason.startswith("in-excluded-subtree:") and reason.split(":", 1)[1] in by_curation:
+            by_curation.add(d.get("id"))
+    for tid in by_curation:
+        out.update((tid, k) for k in ("removed", "deprecated", "children-moved"))
     return out
 
 
@@ -293,7 +311,8 @@ def diff_topics(
     >>> [c.kind for c in diff_topics(a, b).changes]
     ['relabelled']
     """
-    effects = _edit_effects(old_report) ^ _edit_effects(new_report)
+    refs = _refs(old, new)
+    effects = _edit_effects(old_report, refs) ^ _edit_effects(new_report, refs)
     # an edit applied on both sides changes nothing between them; one applied on one
     # side only (added, removed or gone stale) explains the difference
 
@@ -369,7 +388,10 @@ def diff_topics(
         pa, pb = sorted(a.get("parents") or []), sorted(b.get("parents") or [])
         if pa != pb:
             ids = tuple(sorted({ni, *pa, *pb}))
-            changes.append(Change("moved", ni, ids, cause("moved", [ni, *pa, *pb]), None, pa, pb))
+            why = cause("moved", [ni])
+            if any((p, "children-moved") in effects for p in (*pa, *pb)):
+                why = "curation"
+            changes.append(Change("moved", ni, ids, why, None, pa, pb))
         changes.extend(_labels_diff(ni, a, b, cause))
         if a.get("notation") != b.get("notation"):
             changes.append(

@@ -171,7 +171,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     ... <http://example.org/a> a skos:Concept ; skos:broader <http://example.org/a> .''',
     ... format="turtle")
     >>> sorted(lint_graph(g).fired())
-    ['hierarchy-loop', 'no-preferred-label']
+    ['hierarchy-loop', 'no-preferred-label', 'unlinked-concept']
     """
     concepts: set = set(g.subjects(RDF.type, SKOS.Concept))
     for p in (SKOS.broader, SKOS.narrower, SKOS.related):
