@@ -12,7 +12,7 @@ The rules (firm; the README states them too):
 Versions follow Semantic Versioning 2.0.0 (semver.org) restricted to three
 numbers: no pre-release or build parts, no leading zeros.
 
->>> str(next_version(None, []))
+>>> str(next_version(None, [])[0])
 '1.0.0'
 >>> str(bump(Version.parse("1.4.2"), "minor"))
 '1.5.0'
