@@ -87,7 +87,7 @@ def test_strict_import_fails_with_file_line_column(kgkit, workspace):
     r = kgkit("import", str(MESSY))
     assert r.exit_code == 1
     assert r.output.strip().splitlines() == [
-        f"Error: {MESSY}:8:73: line jumps are not allowed in string literals, use \\n; "
+        f"Error: {MESSY}:8:73: string literal not closed on this line; "
         "run with --on-error skip to set bad statements aside"
     ]
     assert _store_quads(workspace) == before

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import time
 from pathlib import Path
 
@@ -80,6 +81,14 @@ class _Bar:
     help="Statements loaded per batch: the memory budget (about 1 GB per million).",
 )
 @click.option("--base", "base_iri", help="Base IRI for relative IRIs in Turtle and JSON-LD.")
+@click.option(
+    "--jobs",
+    "-j",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Worker processes parsing and slicing line-based input "
+    "(N-Triples, N-Quads, entity records). Default: the number of cores.",
+)
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 @click.pass_context
@@ -95,6 +104,7 @@ def import_command(
     languages,
     batch_size,
     base_iri,
+    jobs,
     as_json,
     quiet,
 ):
@@ -119,6 +129,7 @@ def import_command(
         ),
         batch_size=batch_size,
         base_iri=base_iri,
+        jobs=jobs or os.cpu_count() or 1,
     )
     bar = _Bar() if (is_terminal() and not quiet and not as_json) else None
     try:

@@ -25,7 +25,7 @@ import os
 import re
 import tempfile
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable
 from dataclasses import asdict, dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -34,8 +34,20 @@ import pyoxigraph as ox
 
 import kgkit
 from kgkit.errors import KgkitError, ParseError, StoreError
+from kgkit.ingest import lines as _lines
 from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
-from kgkit.ingest.records import RecordError, _Terms, parse_record_line
+from kgkit.ingest.lines import (
+    _AFTER_ERROR_WINDOW,
+    ChunkResult,
+    ChunkSpec,
+    cause_of,
+    decode,
+    iter_byte_chunks,
+    iter_line_chunks,
+    locate,
+    process_chunks,
+    split_lines,
+)
 from kgkit.ingest.slicing import Slice
 from kgkit.ingest.sources import Source, open_source
 from kgkit.store import (
@@ -61,7 +73,6 @@ __all__ = [
 ]
 
 DEFAULT_BATCH = 1_000_000
-_AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a batch
 
 
 @dataclass(frozen=True)
@@ -75,6 +86,7 @@ class ImportOptions:
     slice: Slice = field(default_factory=Slice)
     batch_size: int = DEFAULT_BATCH
     base_iri: str | None = None
+    jobs: int = 1  # worker processes for line-based formats
 
 
 @dataclass
@@ -110,20 +122,6 @@ class Progress:
 
 
 ProgressCallback = Callable[[Progress], None]
-
-_CAUSE_PREFIX = re.compile(r"^Parser error\b.*?(?:column \d+|columns \d+ and \d+)\s*:\s*")
-_CAUSE_SUFFIX = re.compile(r"\s*\(line \d+\)\s*$")
-
-
-def _cause(exc: SyntaxError) -> str:
-    msg = exc.msg or str(exc)
-    msg = _CAUSE_SUFFIX.sub("", _CAUSE_PREFIX.sub("", msg))
-    return msg[:1].lower() + msg[1:] if msg else "malformed statement"
-
-
-def _is_statement(line: bytes) -> bool:
-    s = line.strip()
-    return bool(s) and not s.startswith(b"#")
 
 
 def graph_name_for(label: str) -> str:
@@ -260,151 +258,106 @@ class _Run:
             self.store.bulk_extend(batch)
 
 
-def _solo_error(line: bytes, fmt: ox.RdfFormat) -> SyntaxError | None:
+def _load_raw(run: _Run, label: str, first: int, data: bytes, fmt: ox.RdfFormat) -> None:
+    """Load N-Triples through the store's own parser; on an error, reject the bad line, go on.
+
+    ``run.read`` already counts every statement of ``data``. A failed bulk load may have
+    written part of the data: the statements before the bad line are loaded again (the
+    store keeps one copy), the bad line is set aside, loading resumes after it.
+    """
     try:
-        for _ in ox.parse(input=line, format=fmt):
-            pass
-    except SyntaxError as exc:
-        # without its traceback: a kept traceback holds the frames (and the store) alive
-        return exc.with_traceback(None)
-    return None
-
-
-def _column(line: bytes, err: SyntaxError) -> int | None:
-    """Column of a lone line's error; past the end of the line when the parser ran over it."""
-    if (err.lineno or 1) > 1:
-        return len(line.rstrip(b"\r\n").decode("utf-8", errors="replace")) + 1
-    return err.offset
-
-
-def _locate(seg: list[bytes], exc: SyntaxError, fmt: ox.RdfFormat) -> tuple[int, int | None, str]:
-    """Index in ``seg`` of the line that caused ``exc``, its column and the cause."""
-    reported = min(max((exc.lineno or 1) - 1, 0), len(seg) - 1)
-
-    def found(c: int, err: SyntaxError):
-        # the column from the lone line (where the bad term starts); the cause from the
-        # whole input when it was reported on this very line, as it says more there
-        # ("line jumps are not allowed in string literals" rather than "end of file")
-        cause = _cause(exc) if c == reported and exc.lineno else _cause(err)
-        if cause == "unexpected end of file":
-            cause = "unexpected end of line"
-        return c, _column(seg[c], err), cause
-
-    for c in (reported - 1, reported):
-        if 0 <= c < len(seg) and _is_statement(seg[c]):
-            err = _solo_error(seg[c], fmt)
-            if err is not None:
-                return found(c, err)
-    for c, line in enumerate(seg):
-        if _is_statement(line):
-            err = _solo_error(line, fmt)
-            if err is not None:
-                return found(c, err)
-    return reported, exc.offset, _cause(exc)
-
-
-def _decode(line: bytes) -> str:
-    return line.decode("utf-8", errors="replace")
-
-
-def _line_batches(source: Source, size: int) -> Iterator[tuple[int, list[bytes]]]:
-    """Batches of lines of about ``size`` lines; yields (number of the first line, lines)."""
-    first, lines = 1, []
-    for line in source.stream:
-        lines.append(line)
-        if len(lines) >= size:
-            yield first, lines
-            first += len(lines)
-            lines = []
-    if lines:
-        yield first, lines
-
-
-def _load_rdf_lines(
-    run: _Run, label: str, first: int, lines: list[bytes], fmt: ox.RdfFormat, nquads: bool
-) -> None:
-    """Parse a batch of N-Triples / N-Quads lines: slice it, reject bad lines, load it."""
-    sl = run.opts.slice
-    fast = sl.is_everything and not nquads
-    data = b"".join(lines)
-    if fast and b"_:" not in data:
-        # the store parses and loads; on an error, load around the bad line
-        run.read += sum(1 for x in lines if _is_statement(x))
-        _bulk_segments(run, label, first, lines, data, fmt)
+        run.load_text(data)
         return
-    pos, window = 0, len(lines)
-    while pos < len(lines):
-        seg = lines[pos : pos + window] if pos else lines
-        quads: list[ox.Quad] = []
-        bad = None
-        try:
-            for q in ox.parse(input=data if seg is lines else b"".join(seg), format=fmt):
-                quads.append(q)
-        except SyntaxError as exc:
-            bad = _locate(seg, exc, fmt)
-        upto = len(seg) if bad is None else bad[0]
-        n_stmt = sum(1 for x in seg[:upto] if _is_statement(x))
-        if len(quads) != n_stmt:
-            quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
-        run.read += len(quads)
-        kept = quads if sl.is_everything else [q for q in quads if sl.keeps(q)]
-        run.filtered += len(quads) - len(kept)
-        run.load_quads(kept)
-        if bad is None:
-            pos += len(seg)
-            continue
-        idx, col, cause = bad
-        run.bad(label, first + pos + idx, col, cause, _decode(seg[idx]))
-        pos += idx + 1
-        # after an error, go on in bounded windows: re-parsing the whole rest of a large
-        # batch after every bad line would be quadratic in a dump with many of them
-        window = _AFTER_ERROR_WINDOW
+    except SyntaxError as exc:
+        error = exc.with_traceback(None)
+    _bulk_segments(run, label, first, split_lines(data), fmt, error)
 
 
 def _bulk_segments(
-    run: _Run, label: str, first: int, lines: list[bytes], data: bytes, fmt: ox.RdfFormat
+    run: _Run,
+    label: str,
+    first: int,
+    lines: list[bytes],
+    fmt: ox.RdfFormat,
+    error: SyntaxError | None = None,
 ) -> None:
-    """Load lines through the store's own parser; on an error, reject the bad line, go on.
-
-    ``run.read`` already counts every statement line of ``lines``. A failed bulk load
-    may have written part of the segment: the statements before the bad line are loaded
-    again (the store keeps one copy), the bad line is set aside, loading resumes after it.
-    """
     pos, window = 0, len(lines)
     while pos < len(lines):
         seg = lines[pos : pos + window] if pos else lines
-        try:
-            run.load_text(data if seg is lines else b"".join(seg))
-            pos += len(seg)
-            continue
-        except SyntaxError as exc:
-            idx, col, cause = _locate(seg, exc, fmt)
+        if error is None:
+            try:
+                run.load_text(b"".join(seg))
+                pos += len(seg)
+                continue
+            except SyntaxError as exc:
+                error = exc.with_traceback(None)
+        idx, col, cause = locate(seg, error, fmt)
+        error = None
         run.read -= 1  # run.bad counts the bad statement again
-        run.bad(label, first + pos + idx, col, cause, _decode(seg[idx]))
+        run.bad(label, first + pos + idx, col, cause, decode(seg[idx]))
         if idx:
-            _bulk_segments(run, label, first + pos, seg[:idx], b"".join(seg[:idx]), fmt)
+            _bulk_segments(run, label, first + pos, seg[:idx], fmt)
         pos += idx + 1
+        # bounded windows after an error (see kgkit.ingest.lines)
         window = _AFTER_ERROR_WINDOW
 
 
-def _load_records(run: _Run, label: str, first: int, lines: list[bytes], terms: _Terms) -> None:
-    sl = run.opts.slice
-    kept: list[str] = []
-    for i, line in enumerate(lines):
-        if not line.strip():
-            continue
-        try:
-            triples = parse_record_line(line, terms)
-        except RecordError as exc:
-            run.bad(label, first + i, exc.column, exc.cause, _decode(line))
-            continue
-        run.read += len(triples)
-        for t in triples:
-            if sl.keeps(t):
-                kept.append(f"{t} .\n")
-            else:
-                run.filtered += 1
-    run.load_text("".join(kept).encode("utf-8"))
+class _Pending:
+    """Statements waiting to be loaded, so that the store gets large batches."""
+
+    def __init__(self, run: _Run, label: str):
+        self.run, self.label = run, label
+        self.raw: list[bytes] = []
+        self.raw_first = 0
+        self.raw_lines = 0
+        self.text: list[bytes] = []
+        self.text_count = 0
+
+    def add(self, res: ChunkResult) -> None:
+        run = self.run
+        if res.raw is None or res.rejects:
+            self.flush_raw()  # rejects go out in line order
+        for line, col, cause, text in res.rejects:
+            run.bad(self.label, line, col, cause, text)
+        run.read += res.read
+        run.filtered += res.filtered
+        if res.raw is not None:
+            if not self.raw:
+                self.raw_first = res.first
+            self.raw.append(res.raw)
+            self.raw_lines += res.raw.count(b"\n")
+            if self.raw_lines >= run.opts.batch_size:
+                self.flush_raw()
+            return
+        if res.text:
+            self.text.append(res.text)
+            self.text_count += (
+                res.kept
+                - len(res.quads or ())
+                - (res.blank_text.count(b"\n") if res.blank_text else 0)
+            )
+            if self.text_count >= run.opts.batch_size:
+                self.flush_text()
+        if res.quads:
+            run.load_quads(res.quads)
+        if res.blank_text:
+            run.load_quads(ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES))
+
+    def flush_raw(self) -> None:
+        if self.raw:
+            data = b"".join(self.raw)
+            self.raw, self.raw_lines = [], 0
+            _load_raw(self.run, self.label, self.raw_first, data, ox.RdfFormat.N_TRIPLES)
+
+    def flush_text(self) -> None:
+        if self.text:
+            data = b"".join(self.text)
+            self.text, self.text_count = [], 0
+            self.run.load_text(data)
+
+    def flush(self) -> None:
+        self.flush_raw()
+        self.flush_text()
 
 
 def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
@@ -431,12 +384,12 @@ def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
                     source.label,
                     exc.lineno,
                     exc.offset,
-                    _cause(exc) + "; the parser cannot recover here",
+                    cause_of(exc) + "; the parser cannot recover here",
                 ) from None
             last = where
-            errors.append((exc.lineno, exc.offset, _cause(exc)))
+            errors.append((exc.lineno, exc.offset, cause_of(exc)))
             if run.opts.on_error != "skip":
-                run.bad(source.label, exc.lineno, exc.offset, _cause(exc), "")
+                run.bad(source.label, exc.lineno, exc.offset, cause_of(exc), "")
             continue
         run.read += 1
         if run.opts.slice.keeps(q):
@@ -462,7 +415,7 @@ def _lines_of(path: Path | None, wanted: set[int]) -> dict[int, str]:
     try:
         for n, line in enumerate(src.stream, 1):
             if n in wanted:
-                out[n] = _decode(line)
+                out[n] = decode(line)
                 if len(out) == len(wanted):
                     break
     finally:
@@ -486,31 +439,24 @@ def _load_source(
         _load_document(run, source, fmt_name)
         tick()
         return
-    terms = _Terms(ws) if fmt_name == "records" else None
     if fmt_name == "records" and ws is None:
         raise KgkitError("entity records need a workspace profile to map their fields")
-    # progress every ~50k lines, loading every batch_size lines
-    step = min(50_000, run.opts.batch_size)
-    pending: list[bytes] = []
-    pending_first = 1
-    for first, lines in _line_batches(source, step):
-        if not pending:
-            pending_first = first
-        pending.extend(lines)
-        if len(pending) >= run.opts.batch_size:
-            _dispatch(run, source.label, fmt_name, pending_first, pending, terms)
-            pending = []
-        tick()
-    if pending:
-        _dispatch(run, source.label, fmt_name, pending_first, pending, terms)
-    tick()
-
-
-def _dispatch(run, label, fmt_name, first, lines, terms):
-    if fmt_name == "records":
-        _load_records(run, label, first, lines, terms)
+    opts = run.opts
+    spec = ChunkSpec(fmt_name, opts.slice, ws if fmt_name == "records" else None)
+    # A plain N-Triples import is bound by the store's own loader: workers would only
+    # add a pass; they help when statements must be parsed here (slicing, N-Quads,
+    # entity records, blank nodes).
+    parallel = opts.jobs > 1 and not (fmt_name == "nt" and opts.slice.is_everything)
+    if parallel:
+        chunks = iter_byte_chunks(source.stream, _lines.CHUNK_BYTES)
     else:
-        _load_rdf_lines(run, label, first, lines, RDF_FORMATS[fmt_name], fmt_name == "nq")
+        chunks = iter_line_chunks(source.stream, opts.batch_size, tick)
+    pending = _Pending(run, source.label)
+    for res in process_chunks(spec, chunks, opts.jobs if parallel else 1):
+        pending.add(res)
+        tick()
+    pending.flush()
+    tick()
 
 
 def _now() -> str:

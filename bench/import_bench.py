@@ -1,0 +1,207 @@
+"""Import benchmark: ``kgkit import`` against plain pyoxigraph bulk loading of the same files.
+
+Generates deterministic synthetic dumps (bench/synth.py) of about 1M and 4M triples, and a
+dump where most predicates are outside the profile, then measures, each run in a fresh
+subprocess (peak RSS of that process from ``os.wait4``):
+
+- plain: ``pyoxigraph.Store(path).bulk_load(path=..., format=RdfFormat.N_TRIPLES)`` (the
+  baseline of the targets: statements go into the default graph);
+- plain-named: the same with ``to_graph=`` a named graph, which is where kgkit must put an
+  import (one content graph per import, for atomic replacement): a second baseline that
+  shows what the store itself costs for that;
+- kgkit: ``kgkit.ingest.import_files`` into a fresh workspace (the library call behind
+  ``kgkit import``), with the default options, or ``--keep profile``.
+
+Targets (issue 2): at 1M our throughput >= 0.85x plain; at 4M our peak memory within 1.3x
+of our own peak at 1M and throughput >= 0.6x plain; with --keep profile on the mostly
+out-of-profile dump, faster than plain loading of the whole dump.
+
+    python bench/import_bench.py                 # 1M and 4M (a few minutes)
+    python bench/import_bench.py --scale 0.1     # a quick smoke run (100k / 400k)
+
+Prints a table and writes bench/out/import_bench.json (bench/out is git-ignored).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+OUT = HERE / "out"
+sys.path.insert(0, str(ROOT))
+
+from bench.synth import entities_for_triples, write_synthetic_dump  # noqa: E402
+
+
+def _worker(mode: str, dump: str, where: str, extra: list[str]) -> None:
+    """Run one measured operation in this (fresh) process; print a JSON line."""
+    t0 = time.perf_counter()
+    if mode in ("plain", "plain-named"):
+        import pyoxigraph as ox
+
+        store = ox.Store(where)
+        to = ox.NamedNode("urn:bench:graph") if mode == "plain-named" else None
+        store.bulk_load(path=dump, format=ox.RdfFormat.N_TRIPLES, to_graph=to)
+        store.flush()
+        del store
+        out: dict = {}
+    else:
+        from kgkit.ingest import ImportOptions, import_files, make_slice
+        from kgkit.workspace import init_workspace
+
+        ws = init_workspace(where)
+        keep = "profile" if "profile" in extra else "all"
+        opts = ImportOptions(graph="bench", slice=make_slice(ws, keep=keep))
+        t0 = time.perf_counter()  # workspace creation is not part of the import
+        (summary,) = import_files(ws, [dump], opts)
+        out = summary.to_dict()
+    out["seconds"] = time.perf_counter() - t0
+    print(json.dumps(out), flush=True)
+
+
+def _measure(mode: str, dump: Path, extra: list[str] | None = None) -> dict:
+    where = tempfile.mkdtemp(prefix="kgkit-bench-", dir=OUT)
+    target = os.path.join(where, "ws" if mode == "kgkit" else "store")
+    cmd = [sys.executable, __file__, "--worker", mode, str(dump), target, *(extra or [])]
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, text=True, cwd=ROOT)
+    stdout = proc.stdout.read()
+    _, status, usage = os.wait4(proc.pid, 0)
+    proc.returncode = os.waitstatus_to_exitcode(status)
+    shutil.rmtree(where, ignore_errors=True)
+    if proc.returncode != 0:
+        raise SystemExit(f"{mode} on {dump} failed (exit {proc.returncode})")
+    res = json.loads(stdout.strip().splitlines()[-1])
+    res["peak_rss_mb"] = usage.ru_maxrss / 1024  # Linux: kilobytes
+    return res
+
+
+def _dump(name: str, triples: int, other_ratio: float) -> tuple[Path, dict]:
+    path = OUT / f"{name}.nt"
+    meta = OUT / f"{name}.json"
+    entities = entities_for_triples(triples, other_ratio)
+    want = {"entities": entities, "other_ratio": other_ratio, "seed": 7}
+    if path.is_file() and meta.is_file():
+        info = json.loads(meta.read_text())
+        if info.get("args") == want:
+            return path, info["counts"]
+    counts = write_synthetic_dump(path, entities=entities, seed=7, other_ratio=other_ratio)
+    meta.write_text(json.dumps({"args": want, "counts": counts}, sort_keys=True))
+    return path, counts
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--scale", type=float, default=1.0, help="multiply dump sizes by this")
+    ap.add_argument("--repeat", type=int, default=1, help="runs per measurement (best kept)")
+    ap.add_argument("--worker", nargs="+", help=argparse.SUPPRESS)
+    args, rest = ap.parse_known_args(argv)
+    if args.worker:
+        _worker(args.worker[0], args.worker[1], args.worker[2], args.worker[3:] + rest)
+        return 0
+    OUT.mkdir(exist_ok=True)
+    m = 1_000_000 * args.scale
+    dumps = {
+        "1M": _dump(f"synth-{m / 1e6:g}M", int(m), 0.4),
+        "4M": _dump(f"synth-{4 * m / 1e6:g}M", int(4 * m), 0.4),
+        "mostly-other": _dump(f"synth-other-{2 * m / 1e6:g}M", int(2 * m), 0.85),
+    }
+    runs = [
+        ("1M", "plain", []),
+        ("1M", "plain-named", []),
+        ("1M", "kgkit", []),
+        ("4M", "plain", []),
+        ("4M", "plain-named", []),
+        ("4M", "kgkit", []),
+        ("mostly-other", "plain", []),
+        ("mostly-other", "kgkit --keep profile", ["profile"]),
+    ]
+    results = []
+    for size, mode, extra in runs:
+        path, counts = dumps[size]
+        best = None
+        for _ in range(args.repeat):
+            r = _measure(mode.split()[0], path, extra)
+            if best is None or r["seconds"] < best["seconds"]:
+                best = r
+        best.update(
+            dump=size,
+            mode=mode,
+            triples=counts["triples"],
+            file_mb=path.stat().st_size / 1e6,
+            throughput=counts["triples"] / best["seconds"],
+        )
+        results.append(best)
+        print(
+            f"  {size:<13} {mode:<22} {best['seconds']:7.2f} s  "
+            f"{best['throughput']:>10,.0f} triples/s  {best['peak_rss_mb']:7.0f} MB",
+            file=sys.stderr,
+            flush=True,
+        )
+
+    by = {(r["dump"], r["mode"]): r for r in results}
+
+    def ratio(a, b, key="throughput"):
+        return by[a][key] / by[b][key]
+
+    checks = [
+        (
+            "1M: kgkit throughput / plain into a named graph (not a target)",
+            ratio(("1M", "kgkit"), ("1M", "plain-named")),
+            0.0,
+        ),
+        (
+            "1M: kgkit throughput / plain (target >= 0.85)",
+            ratio(("1M", "kgkit"), ("1M", "plain")),
+            0.85,
+        ),
+        (
+            "4M: kgkit throughput / plain (target >= 0.6)",
+            ratio(("4M", "kgkit"), ("4M", "plain")),
+            0.6,
+        ),
+        (
+            "kgkit peak memory 4M / 1M (target <= 1.3)",
+            ratio(("4M", "kgkit"), ("1M", "kgkit"), "peak_rss_mb"),
+            -1.3,
+        ),
+        (
+            "--keep profile: plain whole-dump seconds / ours (target > 1)",
+            by[("mostly-other", "plain")]["seconds"]
+            / by[("mostly-other", "kgkit --keep profile")]["seconds"],
+            1.0,
+        ),
+    ]
+    print()
+    print("| dump | triples | loader | seconds | triples/s | peak RSS MB |")
+    print("|---|---:|---|---:|---:|---:|")
+    for r in results:
+        print(
+            f"| {r['dump']} | {r['triples']:,} | {r['mode']} | {r['seconds']:.2f} | "
+            f"{r['throughput']:,.0f} | {r['peak_rss_mb']:,.0f} |"
+        )
+    print()
+    print("| ratio | value | met |")
+    print("|---|---:|---|")
+    for name, value, target in checks:
+        met = value <= -target if target < 0 else value >= target
+        print(f"| {name} | {value:.2f} | {'yes' if met else 'no'} |")
+    (OUT / "import_bench.json").write_text(
+        json.dumps(
+            {"results": results, "ratios": {n: v for n, v, _ in checks}}, indent=2, sort_keys=True
+        )
+        + "\n"
+    )
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

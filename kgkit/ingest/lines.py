@@ -1,0 +1,346 @@
+"""Line-based formats (N-Triples, N-Quads, entity records), one chunk of lines at a time.
+
+:func:`process_chunk` parses and slices one chunk of whole lines and returns what to load,
+what was filtered and which lines were bad. It is a plain function of its input, so the
+serial import and the parallel one (``--jobs``, worker processes) run the same code and
+agree exactly: same counts, same rejects with their original line numbers, same graph.
+
+Finding a bad line: the parser stops at an error; the line it names (or the one before,
+since a missing final dot is reported on the *next* line) is parsed alone to confirm it
+and to get the column of the bad term, the line is set aside, and parsing resumes on the
+line after it. After a first error the rest of a chunk is parsed in bounded windows, so a
+dump with many bad lines is not re-parsed quadratically.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import re
+from collections import deque
+from collections.abc import Callable, Iterator
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+from typing import BinaryIO
+
+import pyoxigraph as ox
+
+from kgkit.ingest.formats import RDF_FORMATS
+from kgkit.ingest.records import RecordError, _Terms, parse_record_line
+from kgkit.ingest.slicing import Slice
+from kgkit.workspace import Workspace
+
+__all__ = [
+    "CHUNK_BYTES",
+    "ChunkResult",
+    "ChunkSpec",
+    "iter_line_chunks",
+    "iter_byte_chunks",
+    "process_chunk",
+    "process_chunks",
+]
+
+#: size of the chunks handed to worker processes (cut at the last line end before it)
+CHUNK_BYTES = 4 << 20
+_AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a chunk
+
+_CAUSE_PREFIX = re.compile(r"^Parser error\b.*?(?:column \d+|columns \d+ and \d+)\s*:\s*")
+_CAUSE_SUFFIX = re.compile(r"\s*\(line \d+\)\s*$")
+
+
+def cause_of(exc: SyntaxError) -> str:
+    """The parser's message without its position (we print our own)."""
+    msg = exc.msg or str(exc)
+    msg = _CAUSE_SUFFIX.sub("", _CAUSE_PREFIX.sub("", msg))
+    return msg[:1].lower() + msg[1:] if msg else "malformed statement"
+
+
+def is_statement(line: bytes) -> bool:
+    s = line.strip()
+    return bool(s) and not s.startswith(b"#")
+
+
+def decode(line: bytes) -> str:
+    return line.decode("utf-8", errors="replace")
+
+
+# a valid statement put after a lone line, so that the parser reports on the line the
+# same way whatever follows it in the file (and wherever a chunk happens to end)
+_NEXT = b"<urn:kgkit:s> <urn:kgkit:p> <urn:kgkit:o> .\n"
+
+
+def _solo_error(line: bytes, fmt: ox.RdfFormat) -> SyntaxError | None:
+    try:
+        for _ in ox.parse(input=line.rstrip(b"\r\n") + b"\n" + _NEXT, format=fmt):
+            pass
+    except SyntaxError as exc:
+        # without its traceback: a kept traceback holds the frames (and the store) alive
+        return exc.with_traceback(None)
+    return None
+
+
+def _column(line: bytes, err: SyntaxError) -> int | None:
+    """Column of a lone line's error; past the end of the line when reported on the next."""
+    if (err.lineno or 1) > 1:
+        return len(line.rstrip(b"\r\n").decode("utf-8", errors="replace")) + 1
+    return err.offset
+
+
+def locate(seg: list[bytes], exc: SyntaxError, fmt: ox.RdfFormat) -> tuple[int, int | None, str]:
+    """Index in ``seg`` of the line that caused ``exc``, its column and the cause.
+
+    Column and cause come from parsing the line alone, so they do not depend on where
+    a batch or chunk starts or ends.
+    """
+    reported = min(max((exc.lineno or 1) - 1, 0), len(seg) - 1)
+    candidates = [c for c in (reported - 1, reported) if 0 <= c < len(seg)]
+    for c in (*candidates, *range(len(seg))):
+        if is_statement(seg[c]):
+            err = _solo_error(seg[c], fmt)
+            if err is not None:
+                return c, _column(seg[c], err), _lone_cause(seg[c], err)
+    return reported, exc.offset, cause_of(exc)
+
+
+def _lone_cause(line: bytes, err: SyntaxError) -> str:
+    cause = cause_of(err)
+    if cause != "unexpected end of file":
+        return cause
+    # the parser ran to the end: say what was left open where it started
+    text = decode(line)
+    at = text[err.offset - 1] if err.offset and err.offset <= len(text) else ""
+    if at == '"':
+        return "string literal not closed on this line"
+    if at == "<":
+        return "IRI not closed on this line"
+    return "statement ends too early"
+
+
+def split_lines(data: bytes) -> list[bytes]:
+    """Lines of ``data``, each with its ``\\n`` (the last one may have none)."""
+    lines = data.split(b"\n")
+    last = lines.pop()
+    out = [x + b"\n" for x in lines]
+    if last:
+        out.append(last)
+    return out
+
+
+@dataclass(frozen=True)
+class ChunkSpec:
+    """What processing a chunk needs to know; picklable, sent once to each worker."""
+
+    format: str  # "nt", "nq" or "records"
+    slice: Slice = field(default_factory=Slice)
+    workspace: Workspace | None = None  # entity records map fields through its profile
+
+
+@dataclass
+class ChunkResult:
+    """What one chunk gave. Loading is left to the caller (the process holding the store).
+
+    ``raw``: the chunk itself, to load through the store's own parser (N-Triples with
+    nothing to slice and no blank node); bad lines are then found while loading.
+    Otherwise ``text`` holds the kept statements as N-Triples (no blank nodes), or
+    ``quads`` / ``blank_text`` the kept statements holding blank nodes, whose labels the
+    caller scopes per file.
+    """
+
+    first: int  # number of the chunk's first line in its file
+    read: int = 0  # statements parsed, bad ones not included
+    filtered: int = 0
+    rejects: list[tuple[int, int | None, str, str]] = field(default_factory=list)
+    raw: bytes | None = None
+    text: bytes = b""
+    kept: int = 0  # statements in text / quads / blank_text
+    quads: list | None = None
+    blank_text: bytes = b""
+
+
+def _triple_text(q) -> str:
+    return f"{q.subject} {q.predicate} {q.object} .\n"
+
+
+def _has_blank(q) -> bool:
+    return isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode)
+
+
+def process_chunk(
+    spec: ChunkSpec,
+    first: int,
+    data: bytes,
+    terms: _Terms | None = None,
+    keep_objects: bool = True,
+) -> ChunkResult:
+    """Parse and slice one chunk of whole lines.
+
+    ``keep_objects`` (in the importing process) returns kept blank-node statements as
+    pyoxigraph quads; a worker process returns them as text instead (picklable).
+    """
+    res = ChunkResult(first)
+    if spec.format == "records":
+        _records_chunk(spec, res, data, terms)
+        return res
+    fmt = RDF_FORMATS[spec.format]
+    sl = spec.slice
+    if spec.format == "nt" and sl.is_everything and b"_:" not in data:
+        res.read = sum(1 for x in split_lines(data) if is_statement(x))
+        res.raw = data
+        return res
+    lines = split_lines(data)
+    kept_text: list[str] = []
+    blank: list = []
+    pos, window = 0, len(lines)
+    while pos < len(lines):
+        seg = lines[pos : pos + window] if pos else lines
+        quads: list = []
+        bad = None
+        try:
+            for q in ox.parse(input=data if seg is lines else b"".join(seg), format=fmt):
+                quads.append(q)
+        except SyntaxError as exc:
+            bad = locate(seg, exc, fmt)
+        upto = len(seg) if bad is None else bad[0]
+        n_stmt = sum(1 for x in seg[:upto] if is_statement(x))
+        if len(quads) != n_stmt:
+            quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
+        res.read += len(quads)
+        for q in quads:
+            if not sl.keeps(q):
+                res.filtered += 1
+            elif _has_blank(q):
+                blank.append(q)
+            else:
+                kept_text.append(_triple_text(q))
+        if bad is None:
+            pos += len(seg)
+            continue
+        idx, col, cause = bad
+        res.rejects.append((first + pos + idx, col, cause, decode(seg[idx])))
+        pos += idx + 1
+        window = _AFTER_ERROR_WINDOW
+    res.text = "".join(kept_text).encode("utf-8")
+    res.kept = len(kept_text) + len(blank)
+    if blank:
+        if keep_objects:
+            res.quads = blank
+        else:
+            res.blank_text = "".join(_triple_text(q) for q in blank).encode("utf-8")
+    return res
+
+
+def _records_chunk(spec: ChunkSpec, res: ChunkResult, data: bytes, terms: _Terms | None):
+    if terms is None:
+        terms = _Terms(spec.workspace)
+    sl = spec.slice
+    kept: list[str] = []
+    for i, line in enumerate(split_lines(data)):
+        if not line.strip():
+            continue
+        try:
+            triples = parse_record_line(line, terms)
+        except RecordError as exc:
+            res.rejects.append((res.first + i, exc.column, exc.cause, decode(line)))
+            continue
+        res.read += len(triples)
+        for t in triples:
+            if sl.keeps(t):
+                kept.append(f"{t} .\n")
+            else:
+                res.filtered += 1
+    res.text = "".join(kept).encode("utf-8")
+    res.kept = len(kept)
+
+
+# -- reading chunks ----------------------------------------------------------
+
+
+def iter_line_chunks(
+    stream: BinaryIO, lines_per_chunk: int, tick: Callable[[], None] | None = None
+) -> Iterator[tuple[int, bytes]]:
+    """Chunks of ``lines_per_chunk`` lines: (number of the first line, bytes)."""
+    step = min(50_000, lines_per_chunk)  # progress between large chunks
+    first, lines = 1, []
+    for n, line in enumerate(stream, 1):
+        lines.append(line)
+        if len(lines) >= lines_per_chunk:
+            yield first, b"".join(lines)
+            first += len(lines)
+            lines = []
+        if tick and n % step == 0:
+            tick()
+    if lines:
+        yield first, b"".join(lines)
+
+
+def iter_byte_chunks(stream: BinaryIO, size: int = CHUNK_BYTES) -> Iterator[tuple[int, bytes]]:
+    """Chunks of about ``size`` bytes cut after a line end: (number of the first line, bytes)."""
+    first, tail = 1, b""
+    while True:
+        block = stream.read(size)
+        if not block:
+            break
+        cut = block.rfind(b"\n") + 1
+        if cut == 0:
+            tail += block
+            continue
+        data = tail + block[:cut]
+        tail = block[cut:]
+        yield first, data
+        first += data.count(b"\n")
+    if tail:
+        yield first, tail
+
+
+# -- worker processes ----------------------------------------------------------
+
+_WORKER: tuple[ChunkSpec, _Terms | None] | None = None
+
+
+def _init_worker(spec: ChunkSpec) -> None:
+    global _WORKER
+    _WORKER = (spec, _Terms(spec.workspace) if spec.format == "records" else None)
+
+
+def _work(first: int, data: bytes) -> ChunkResult:
+    spec, terms = _WORKER
+    return process_chunk(spec, first, data, terms, keep_objects=False)
+
+
+def process_chunks(
+    spec: ChunkSpec, chunks: Iterator[tuple[int, bytes]], jobs: int
+) -> Iterator[ChunkResult]:
+    """Results of :func:`process_chunk` over ``chunks``, in order, in ``jobs`` processes.
+
+    At most ``2 * jobs`` chunks are in flight, so memory stays bounded. Worker processes
+    are started only when there is more than one chunk.
+    """
+    terms = _Terms(spec.workspace) if spec.format == "records" else None
+    it = iter(chunks)
+    head = next(it, None)
+    if head is None:
+        return
+    second = next(it, None)
+    if jobs <= 1 or second is None:
+        for first, data in (head, *(() if second is None else (second,))):
+            yield process_chunk(spec, first, data, terms)
+        for first, data in it:
+            yield process_chunk(spec, first, data, terms)
+        return
+    # spawn, not fork: the importing process holds the store and its threads
+    ctx = multiprocessing.get_context("spawn")
+    with ProcessPoolExecutor(
+        max_workers=jobs, mp_context=ctx, initializer=_init_worker, initargs=(spec,)
+    ) as pool:
+        pending: deque = deque()
+        try:
+            for first, data in (head, second):
+                pending.append(pool.submit(_work, first, data))
+            for first, data in it:
+                pending.append(pool.submit(_work, first, data))
+                if len(pending) >= 2 * jobs:
+                    yield pending.popleft().result()
+            while pending:
+                yield pending.popleft().result()
+        finally:
+            for f in pending:
+                f.cancel()
