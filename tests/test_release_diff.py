@@ -139,6 +139,11 @@ def test_attribution_to_curation():
         ("alias-added", "canoe-polo"): "curation",
         ("relabelled", "sailing"): "graph",
     }
+    # the edit taken out again: its undoing is the curation's too
+    back = diff_topics(new, base(), report, None)
+    assert {(c.kind, c.topic): c.cause for c in back.changes}[("alias-removed", "canoe-polo")] == (
+        "curation"
+    )
     # the same edit applied on both sides explains nothing between them
     d2 = diff_topics(base(), new, report, report)
     assert {(c.kind, c.topic): c.cause for c in d2.changes}[("alias-added", "canoe-polo")] == (

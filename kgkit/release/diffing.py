@@ -216,7 +216,15 @@ _EDIT_KINDS: dict[str, dict[str, tuple[str, ...]]] = {
         "target": ("deprecated", "removed", "replacement-changed", "children-moved"),
         "into": ("alias-added",),
     },
-    "add_topic": {"target": ("added", "removed")},
+    "add_topic": {"target": ("added", "removed", "deprecated")},
+}
+#: what undoing an edit's change looks like in the diff
+_UNDONE_BY = {
+    "alias-added": ("alias-removed",),
+    "alias-removed": ("alias-added",),
+    "added": ("removed", "deprecated"),
+    "removed": ("added", "restored"),
+    "deprecated": ("added", "restored"),
 }
 
 
@@ -312,9 +320,13 @@ def diff_topics(
     ['relabelled']
     """
     refs = _refs(old, new)
-    effects = _edit_effects(old_report, refs) ^ _edit_effects(new_report, refs)
-    # an edit applied on both sides changes nothing between them; one applied on one
-    # side only (added, removed or gone stale) explains the difference
+    before, after = _edit_effects(old_report, refs), _edit_effects(new_report, refs)
+    # an edit applied on both sides changes nothing between them; one applied on the
+    # new side only explains its changes, one applied on the old side only (taken out
+    # of the file, or gone stale) explains their undoing
+    effects = (after - before) | {
+        (t, k2) for t, k in before - after for k2 in (k, *_UNDONE_BY.get(k, ()))
+    }
 
     def cause_for(topic_obj):
         def cause(kind, ids):
