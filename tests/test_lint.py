@@ -135,3 +135,41 @@ def test_cli_exit_codes_and_json(runner):
     assert data["findings"][0]["source"].endswith("Cyclic Hierarchical Relations")
     missing = runner.invoke(cli, ["lint", "nope.ttl"])
     assert missing.exit_code == 1 and missing.output == "Error: nope.ttl: no such file or folder\n"
+
+
+def test_agrees_with_skosify_on_the_shared_checks():
+    """Cross-check against skosify 2.3 (PyPI; National Library of Finland, from memory):
+    its checks for broader cycles, S13 label overlap and S14 preferred-label uniqueness
+    log a warning on exactly the vocabularies where our matching check fires."""
+    import logging
+
+    check = pytest.importorskip("skosify.check")
+
+    class Collect(logging.Handler):
+        def __init__(self):
+            super().__init__(logging.DEBUG)
+            self.messages = []
+
+        def emit(self, record):
+            self.messages.append(record.getMessage())
+
+    theirs = {
+        "hierarchy-loop": check.hierarchy_cycles,
+        "label-kind-clash": check.label_overlap,
+        # its default policy "all" is refused by skosify 2.3 itself; "shortest" reports too
+        "two-preferred-labels": lambda g: check.preflabel_uniqueness(g, "shortest"),
+    }
+    root = logging.getLogger()
+    for case in ["lint-clean", *sorted(CASES)]:
+        ours = lint_path(DATA / case).fired()
+        for name, fn in theirs.items():
+            g = rdflib.Graph().parse(DATA / case / "skos.ttl", format="turtle")
+            h, level = Collect(), root.level
+            root.addHandler(h)
+            root.setLevel(logging.DEBUG)
+            try:
+                fn(g)
+            finally:
+                root.removeHandler(h)
+                root.setLevel(level)
+            assert bool(h.messages) == (name in ours), (case, name, h.messages)
