@@ -196,7 +196,7 @@ def test_cli_probe_corpus_writes_curation(runner, tmp_path):
     )
     assert res.exit_code == 0, res.output
     assert res.output.splitlines()[0] == (
-        "3 documents, 4 hits, 3 match keys found; flagged above 50% of the documents:"
+        "3 documents, 4 hits, 3 match keys; 1 too common (in more than 50% of the documents):"
     )
     assert "  netting        2   66.7%  crop-netting, net-mending  TOO COMMON" in res.output
     assert res.output.endswith(f"2 remove_alias edits written to {out}\n")

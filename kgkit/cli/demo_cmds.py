@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import tempfile
+import time
 from pathlib import Path
 
 import click
@@ -19,13 +20,22 @@ def demo_command(directory: Path | None) -> None:
     """
     if directory is None:
         directory = Path(tempfile.mkdtemp(prefix="kgkit-demo-"))
+    t0 = time.perf_counter()
     for n, step in enumerate(iter_demo(directory), 1):
         click.echo(f"{n}. {step.title}")
         for line in step.lines:
             click.echo(f"   {line}")
         for f in step.files:
-            click.echo(f"   -> {f}")
-    click.echo(f"demo workspace: {directory}")
+            click.echo(f"   -> {_shown(f)}")
+    click.echo(f"demo workspace: {_shown(directory)} ({time.perf_counter() - t0:.1f} s)")
+
+
+def _shown(path: Path) -> str:
+    """A path relative to the current folder when it is below it (shorter, and portable)."""
+    try:
+        return str(Path(path).resolve().relative_to(Path.cwd().resolve()))
+    except ValueError:
+        return str(path)
 
 
 COMMANDS = [demo_command]

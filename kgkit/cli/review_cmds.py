@@ -111,8 +111,9 @@ def probe_command(release, text, file, corpus, threshold, write_curation, as_jso
             echo_json(report.to_dict())
             return
         click.echo(
-            f"{report.documents} documents, {report.hits} hits, {len(report.keys)} match keys "
-            f"found; flagged above {report.threshold:.0%} of the documents:"
+            f"{report.documents} documents, {report.hits} hits, {len(report.keys)} match keys; "
+            f"{len(report.flagged)} too common (in more than {report.threshold:.0%} "
+            "of the documents):"
         )
         width = max((len(k.key) for k in report.keys), default=5)
         for k in report.keys:

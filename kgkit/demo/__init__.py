@@ -31,6 +31,7 @@ __all__ = ["DemoStep", "DemoError", "iter_demo", "run_demo", "SPEC_NAME"]
 
 SPEC_NAME = "tidewell"
 _PREFIX_LINE = "  tw:   http://demo.kgkit.invalid/e/\n"
+_P = "http://demo.kgkit.invalid/p/"
 
 
 class DemoError(KgkitError):
@@ -89,18 +90,35 @@ def _rejected_causes(path: Path, limit: int = 3) -> list[str]:
 
 
 def _explore(ws) -> DemoStep:
-    from kgkit.query import connect
+    from kgkit.query import connect, run_query
     from kgkit.templates import run_template
 
-    step = DemoStep("explored the graph with templates")
+    step = DemoStep("explored the graphs with templates and SPARQL")
     with connect(ws) as backend:
         res = run_template(backend, "descendants", {"root": "tw:water-sports", "max_depth": "2"})
         rows = list(res.rows)
         step.lines.append(f"descendants of tw:water-sports to depth 2: {len(rows)} entities, e.g.")
-        shown = sorted((int(r[1].value), ws.compact(r[0].value)) for r in rows)[:4]
+        shown = sorted((int(r[1].value), ws.compact(r[0].value)) for r in rows)[:3]
         step.lines += [f"  depth {d}  {c}" for d, c in shown]
-        res = run_template(backend, "descendants", {"root": "tw:topic"})
-        step.lines.append(f"descendants of tw:topic (the whole hierarchy): {len(list(res.rows))}")
+        res = run_template(backend, "children", {"entity": "tw:crafts"})
+        kids = sorted(
+            (-int(r[2].value), r[1].value if r[1] is not None else ws.compact(r[0].value))
+            for r in res.rows
+        )
+        step.lines.append(
+            f"children of tw:crafts: {len(kids)}; the largest: "
+            + ", ".join(f"{label} ({-n})" for n, label in kids[:3])
+        )
+        res = run_query(
+            backend,
+            "SELECT ?topic (COUNT(?clip) AS ?clips) WHERE { ?clip <"
+            + _P
+            + "about> ?topic } GROUP BY ?topic ORDER BY DESC(?clips) ?topic LIMIT 3",
+        )
+        step.lines.append(
+            "most filmed topics in the archive: "
+            + ", ".join(f"{ws.compact(r[0].value)} ({r[1].value} clips)" for r in res.rows)
+        )
     return step
 
 
@@ -175,16 +193,10 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     from kgkit.vocab.compile import compile_vocabulary
 
     result = compile_vocabulary(ws, spec)
-    sm = result.summary
     yield (
         DemoStep(
             "compiled the vocabulary spec",
-            [
-                f"{sm['topics']} topics, {sm['aliases']} aliases; dropped {sm['dropped']} "
-                f"topics and {sm['dropped_aliases']} aliases; {sm['cycles_broken']} cycle "
-                f"broken; {sm['ambiguous_keys']} ambiguous keys",
-                *_topline(result.output / "report.txt", 12),
-            ],
+            _topline(result.output / "report.txt", 12),
             [spec, result.output],
         )
     )
@@ -236,7 +248,14 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     yield (
         DemoStep(
             f"released {SPEC_NAME} {second.version}",
-            _topline(changelog, 14),
+            [
+                f"{second.previous} -> {second.version} ({second.level}):",
+                *(
+                    ("  " + x[3:] + ":") if x.startswith("## ") else ("    " + x[2:])
+                    for x in changelog.read_text(encoding="utf-8").splitlines()
+                    if x.startswith(("## ", "- "))
+                ),
+            ],
             [Path(second.path), changelog],
         )
     )
@@ -250,6 +269,9 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     hits = load_lexicon(second.path).find(article.read_text(encoding="utf-8"))
     lines = []
     for h in hits[:6]:
-        cands = " | ".join(f"{c.topic}" for c in h.candidates)
+        cands = " | ".join(
+            f"{c.topic} (under {', '.join(p for p, _l in c.parents) or 'nothing'})"
+            for c in h.candidates
+        )
         lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}")
     yield DemoStep(f"probed {article.name} with release {second.version}", lines, [])
