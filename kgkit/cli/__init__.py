@@ -58,6 +58,7 @@ def cli(ctx: click.Context, workspace: str | None, debug: bool) -> None:
 _MODULES = (
     "workspace_cmds",
     "ingest_cmds",
+    "explore_cmds",
     "vocab_cmds",
     "release_cmds",
     "review_cmds",

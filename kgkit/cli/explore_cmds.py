@@ -1,0 +1,318 @@
+"""``kgkit query``, ``templates``, ``run``, ``show``, ``find``, ``tree`` and ``shell``."""
+
+from __future__ import annotations
+
+import json
+import sys
+from dataclasses import asdict
+
+import click
+
+from kgkit.cli.common import get_workspace
+from kgkit.entities import (
+    find_entities,
+    format_card,
+    format_matches,
+    format_tree,
+    show_entity,
+    tree_of,
+)
+from kgkit.errors import KgkitError
+from kgkit.query import FORMATS, connect, run_query, write_result
+from kgkit.shell import Shell, history_path
+from kgkit.templates import list_templates, load_template, run_template
+
+
+def _graph_option(f):
+    return click.option(
+        "--graph",
+        "-g",
+        "graphs",
+        multiple=True,
+        help="Query only this imported graph (repeatable; default: all of them).",
+    )(f)
+
+
+def _output_options(f):
+    f = click.option(
+        "--format",
+        "fmt",
+        type=click.Choice(list(FORMATS)),
+        default="table",
+        show_default=True,
+        help="table for people; json, csv, tsv as the W3C SPARQL results formats; "
+        "nt or ttl for CONSTRUCT and DESCRIBE.",
+    )(f)
+    f = click.option(
+        "--allow-service",
+        is_flag=True,
+        help="Let SERVICE clauses send requests to other endpoints over the network.",
+    )(f)
+    f = click.option(
+        "--timeout",
+        type=float,
+        default=60.0,
+        show_default=True,
+        help="Seconds to wait for a remote endpoint.",
+    )(f)
+    return _graph_option(f)
+
+
+def _out():
+    return sys.stdout
+
+
+@click.command("query")
+@click.argument("sparql", required=False)
+@click.option("--file", "-f", "path", type=click.Path(dir_okay=False), help="Read the query here.")
+@_output_options
+@click.option(
+    "--allow-update",
+    is_flag=True,
+    help="Run a SPARQL update (INSERT, DELETE, DROP...) on the store, opened for writing.",
+)
+@click.pass_context
+def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_update):
+    """Run a SPARQL query given as SPARQL, in --file FILE, or on standard input (-).
+
+    Workspace prefixes need no PREFIX line. The query sees the union of the
+    imported graphs (GRAPH ?g reaches each one); updates and SERVICE clauses are
+    refused unless allowed.
+
+    Example: kgkit query 'SELECT ?s ?l WHERE { ?s skos:prefLabel ?l } LIMIT 5'
+    """
+    ws = get_workspace(ctx)
+    if path and sparql:
+        raise KgkitError("give the query as an argument or with --file, not both")
+    if path:
+        try:
+            with open(path, encoding="utf-8") as fh:
+                text = fh.read()
+        except OSError as exc:
+            raise KgkitError(f"{path}: cannot read ({exc.strerror})") from None
+        except UnicodeDecodeError:
+            raise KgkitError(f"{path}: not UTF-8 text") from None
+    elif sparql is None or sparql == "-":
+        if sparql is None and sys.stdin.isatty():
+            raise KgkitError("no query: give it as an argument, with --file, or on standard input")
+        text = sys.stdin.read()
+    else:
+        text = sparql
+    if not text.strip():
+        raise KgkitError("the query is empty")
+    with connect(ws, write=allow_update, timeout=timeout) as backend:
+        res = run_query(
+            backend,
+            text,
+            graphs=list(graphs) or None,
+            allow_update=allow_update,
+            allow_service=allow_service,
+        )
+        write_result(res, _out(), fmt, ws)
+
+
+def _params(pairs: tuple[str, ...]) -> dict[str, str]:
+    out = {}
+    for pair in pairs:
+        key, eq, value = pair.partition("=")
+        if not eq or not key:
+            raise KgkitError(f"-p {pair!r}: write -p NAME=VALUE")
+        if key in out:
+            raise KgkitError(f"-p {key}: given twice")
+        out[key] = value
+    return out
+
+
+@click.command("run")
+@click.argument("name")
+@click.option("--param", "-p", "pairs", multiple=True, help="A parameter: -p NAME=VALUE.")
+@_output_options
+@click.pass_context
+def run_command(ctx, name, pairs, fmt, graphs, allow_service, timeout):
+    """Run the template NAME with parameters -p NAME=VALUE.
+
+    `kgkit templates` lists the templates and their parameters.
+
+    Example: kgkit run descendants -p root=ex:water-sports -p max_depth=2 --format csv
+    """
+    ws = get_workspace(ctx)
+    params = _params(pairs)
+    with connect(ws, timeout=timeout) as backend:
+        res = run_template(
+            backend, name, params, graphs=list(graphs) or None, allow_service=allow_service
+        )
+        write_result(res, _out(), fmt, ws)
+
+
+@click.command("templates")
+@click.argument("name", required=False)
+@click.pass_context
+def templates_command(ctx, name):
+    """List the templates with their parameters, or show template NAME in full.
+
+    Workspace templates (queries/*.rq) override built-in ones of the same name.
+
+    Example: kgkit templates descendants
+    """
+    ws = get_workspace(ctx)
+    tpls = [load_template(ws, name)] if name else list_templates(ws)
+    for t in tpls:
+        where = "built-in" if t.builtin else t.path
+        click.echo(f"{t.name}  ({where})")
+        click.echo(f"    {t.summary}")
+        for p in t.params:
+            if p.required:
+                need = "required"
+            elif p.default is not None:
+                need = f"= {p.default}"
+            else:
+                need = "optional"
+            choice = f" (one of {', '.join(p.choices)})" if p.choices else ""
+            click.echo(f"    -p {p.name:<12} {p.kind:<11}{need:<15} {p.help}{choice}")
+        if name:
+            click.echo("")
+            click.echo(t.body.rstrip("\n"))
+
+
+@click.command("show")
+@click.argument("term")
+@_graph_option
+@click.option("--json", "as_json", is_flag=True, help="Print the card as one JSON object.")
+@click.pass_context
+def show_command(ctx, term, graphs, as_json):
+    """Show everything about one entity: TERM is a CURIE, an <IRI> or an exact label.
+
+    A label shared by several entities lists them, with their parents.
+
+    Example: kgkit show ex:canoe-polo
+    """
+    ws = get_workspace(ctx)
+    with connect(ws) as backend:
+        card = show_entity(backend, term, graphs=list(graphs) or None)
+    if as_json:
+        click.echo(json.dumps(asdict(card), sort_keys=True, ensure_ascii=False))
+    else:
+        click.echo(format_card(card), nl=False)
+
+
+@click.command("find")
+@click.argument("text")
+@click.option("--lang", "language", help="Only names in this language (en also matches en-GB).")
+@click.option("--limit", type=int, default=20, show_default=True, help="At most this many.")
+@_graph_option
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object per match.")
+@click.pass_context
+def find_command(ctx, text, language, limit, graphs, as_json):
+    """Find entities by label or alias, best matches first, each with its parents.
+
+    Exact names first, then names starting with TEXT, then a word starting with
+    it, then anywhere; case does not matter.
+
+    Example: kgkit find polo --lang en
+    """
+    ws = get_workspace(ctx)
+    with connect(ws) as backend:
+        matches = find_entities(backend, text, language, limit, graphs=list(graphs) or None)
+    if as_json:
+        for m in matches:
+            click.echo(json.dumps(asdict(m), sort_keys=True, ensure_ascii=False))
+    elif matches:
+        click.echo(format_matches(matches), nl=False)
+    else:
+        click.echo(f"nothing named like {text!r}", err=True)
+
+
+@click.command("tree")
+@click.argument("term")
+@click.option("--depth", "-d", type=int, default=2, show_default=True, help="Levels shown.")
+@click.option(
+    "--max-children",
+    type=int,
+    default=50,
+    show_default=True,
+    help="Children shown under one entity before '… N more'.",
+)
+@_graph_option
+@click.pass_context
+def tree_command(ctx, term, depth, max_children, graphs):
+    """Show the hierarchy below TERM (a CURIE, <IRI> or exact label) as an indented tree.
+
+    Each entity shows how many entities are below it; one with several parents
+    says so; a cycle is cut and marked where it closes.
+
+    Example: kgkit tree ex:water-sports --depth 3
+    """
+    ws = get_workspace(ctx)
+    with connect(ws) as backend:
+        lines = tree_of(backend, term, depth, max_children, graphs=list(graphs) or None)
+    click.echo(format_tree(lines), nl=False)
+
+
+@click.command("shell")
+@click.option("--format", "fmt", type=click.Choice(list(FORMATS)), default="table")
+@_graph_option
+@click.pass_context
+def shell_command(ctx, fmt, graphs):
+    """Type SPARQL interactively; end each query with ; (':help' lists the commands).
+
+    History is kept across sessions in the workspace (.kgkit/shell-history).
+
+    Example: kgkit shell
+    """
+    ws = get_workspace(ctx)
+    interactive = sys.stdin.isatty()
+    with connect(ws) as backend:
+        path = history_path(backend)
+        path.parent.mkdir(parents=True, exist_ok=True)
+        rl = None
+        if interactive:
+            try:
+                import readline as rl
+
+                rl.set_auto_history(False)
+                if path.exists():
+                    rl.read_history_file(str(path))
+            except (ImportError, OSError):
+                rl = None
+
+        def read(prompt: str) -> str | None:
+            try:
+                if interactive:
+                    return input(prompt)
+                click.echo(prompt, nl=False)
+                line = sys.stdin.readline()
+                if not line:
+                    click.echo("")
+                    return None
+                return line.rstrip("\n")
+            except EOFError:
+                click.echo("")
+                return None
+
+        def remember(statement: str) -> None:
+            if rl is not None:
+                rl.add_history(statement)
+            with open(path, "a", encoding="utf-8") as fh:
+                fh.write(statement + "\n")
+
+        if interactive:
+            click.echo("kgkit shell: end queries with ;  (:help for commands, :quit to leave)")
+        Shell(
+            backend,
+            read,
+            lambda s: click.echo(s, nl=False),
+            remember,
+            fmt=fmt,
+            graphs=list(graphs) or None,
+        ).loop()
+
+
+COMMANDS = [
+    query_command,
+    templates_command,
+    run_command,
+    show_command,
+    find_command,
+    tree_command,
+    shell_command,
+]

@@ -1,0 +1,443 @@
+"""Looking at entities: a card for one, ranked name matches, an indented tree.
+
+These run the built-in templates (``card``, ``search``, ``descendants``) and a few
+small look-ups of labels and parents, so they work unchanged on the embedded store
+and on a remote endpoint. They return data; :func:`format_tree` and
+:func:`format_card` turn it into text for the command line.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import deque
+from dataclasses import dataclass, field
+
+import pyoxigraph as ox
+
+from kgkit.errors import KgkitError
+from kgkit.query import Backend, run_query
+from kgkit.templates import bind_template, load_template, run_template
+
+__all__ = [
+    "AmbiguousTermError",
+    "EntityCard",
+    "Match",
+    "TreeLine",
+    "find_entities",
+    "format_card",
+    "format_matches",
+    "format_tree",
+    "labels_of",
+    "resolve_term",
+    "show_entity",
+    "tree_of",
+]
+
+#: look-ups of many entities go in chunks of this many IRIs (VALUES lists slow down fast)
+CHUNK = 100
+
+
+class AmbiguousTermError(KgkitError):
+    """A label names several entities; ``candidates`` lists them."""
+
+    def __init__(self, term: str, candidates: list[Match]):
+        self.candidates = candidates
+        lines = [f"{term!r} is the label of {len(candidates)} entities; name one by CURIE or IRI:"]
+        for c in candidates:
+            lines.append("  " + _describe(c))
+        super().__init__("\n".join(lines))
+
+
+@dataclass
+class Match:
+    """One entity found by name."""
+
+    iri: str
+    curie: str
+    name: str
+    language: str
+    kind: str  # "label" | "alias"
+    how: str  # "exact" | "prefix" | "word" | "substring"
+    label: str | None = None  # its preferred label, when the match was an alias
+    parents: list[tuple[str, str | None]] = field(default_factory=list)  # (curie, label)
+
+
+def _describe(m: Match) -> str:
+    shown = f"{m.curie}  {m.label or m.name}"
+    if m.kind == "alias":
+        shown += f"  (alias {m.name!r})"
+    if m.parents:
+        shown += "  under " + ", ".join(label or curie for curie, label in m.parents)
+    return shown
+
+
+@dataclass
+class EntityCard:
+    iri: str
+    curie: str
+    labels: dict[str, list[str]]
+    aliases: dict[str, list[str]]
+    descriptions: dict[str, list[str]]
+    types: list[str]  # CURIEs
+    parents: list[tuple[str, str | None]]
+    notations: list[str]
+    children: int
+
+
+@dataclass
+class TreeLine:
+    depth: int
+    iri: str
+    curie: str
+    label: str | None
+    below: int  # distinct entities below it
+    parents: int  # number of parents it has in the graph
+    mark: str | None = None  # "cycle" | "repeat" | "more"
+    more: int = 0  # with mark "more": how many children were not shown
+
+
+def _is_identifier(term: str, backend: Backend) -> bool:
+    term = term.strip()
+    if term.startswith("<") and term.endswith(">"):
+        return True
+    m = re.match(r"^([A-Za-z][A-Za-z0-9_.-]*)?:(\S*)$", term)
+    if m and (m.group(1) or "") in backend.ws.prefixes:
+        return True
+    return bool(re.match(r"^[a-zA-Z][a-zA-Z0-9+.-]*:[^\s<>\"]+$", term)) and (
+        "/" in term or term.startswith("urn:")
+    )
+
+
+def _lang_rank(lang: str, languages: tuple[str, ...]) -> int:
+    for i, want in enumerate(languages):
+        if lang == want or lang.startswith(want + "-"):
+            return i
+    return len(languages) + (0 if lang == "" else 1)
+
+
+def labels_of(backend: Backend, iris: list[str], graphs: list[str] | None = None) -> dict[str, str]:
+    """The preferred label of each IRI that has one: the workspace languages in
+    order, then untagged, then any; label predicates in profile order."""
+    ws = backend.ws
+    preds = list(ws.profile["label"])
+    if not preds or not iris:
+        return {}
+    best: dict[str, tuple] = {}
+    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
+    uniq = sorted(set(iris))
+    for i in range(0, len(uniq), CHUNK):
+        chunk = " ".join(str(ox.NamedNode(x)) for x in uniq[i : i + CHUNK])
+        q = (
+            f"SELECT ?item ?p ?l WHERE {{ VALUES ?item {{ {chunk} }} "
+            f"?item ?p ?l . FILTER(?p IN ({plist}) && isLiteral(?l)) }}"
+        )
+        for item, p, lit in run_query(backend, q, graphs=graphs).rows:
+            key = (
+                _lang_rank(lit.language or "", ws.config.languages),
+                preds.index(p.value),
+                lit.value,
+            )
+            if item.value not in best or key < best[item.value][0]:
+                best[item.value] = (key, lit.value)
+    return {k: v[1] for k, v in best.items()}
+
+
+def _parents_of(
+    backend: Backend, iris: list[str], graphs: list[str] | None = None
+) -> dict[str, list[str]]:
+    preds = list(backend.ws.profile["parent"])
+    out: dict[str, list[str]] = {x: [] for x in iris}
+    if not preds or not iris:
+        return out
+    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
+    uniq = sorted(set(iris))
+    for i in range(0, len(uniq), CHUNK):
+        chunk = " ".join(str(ox.NamedNode(x)) for x in uniq[i : i + CHUNK])
+        q = (
+            f"SELECT DISTINCT ?item ?parent WHERE {{ VALUES ?item {{ {chunk} }} "
+            f"?item ?p ?parent . FILTER(?p IN ({plist}) && isIRI(?parent)) }}"
+        )
+        for item, parent in run_query(backend, q, graphs=graphs).rows:
+            out[item.value].append(parent.value)
+    return {k: sorted(set(v)) for k, v in out.items()}
+
+
+def _exact_label_matches(backend: Backend, text: str, graphs: list[str] | None = None) -> list[str]:
+    ws = backend.ws
+    preds = list(ws.profile["label"])
+    if not preds:
+        return []
+    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
+    # fast: exact literals in the workspace languages and untagged, found through the index
+    forms = [ox.Literal(text)] + [ox.Literal(text, language=lang) for lang in ws.config.languages]
+    values = " ".join(str(f) for f in forms)
+    q = (
+        f"SELECT DISTINCT ?item WHERE {{ VALUES ?l {{ {values} }} ?item ?p ?l . "
+        f"FILTER(?p IN ({plist})) }}"
+    )
+    found = sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
+    if found:
+        return found
+    # then any language, by a scan
+    q = (
+        f"SELECT DISTINCT ?item WHERE {{ ?item ?p ?l . FILTER(?p IN ({plist})) "
+        f"FILTER(isLiteral(?l) && STR(?l) = {ox.Literal(text)}) }}"
+    )
+    return sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
+
+
+def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -> str:
+    """The IRI a CURIE, ``<IRI>`` or exact label names.
+
+    Raises :class:`AmbiguousTermError` when a label names several entities.
+    """
+    ws = backend.ws
+    if _is_identifier(term, backend):
+        try:
+            return ox.NamedNode(ws.expand(term, "term")).value
+        except (KgkitError, ValueError) as exc:
+            raise KgkitError(f"{term!r} is not a valid IRI or CURIE ({exc})") from None
+    found = _exact_label_matches(backend, term, graphs)
+    if not found:
+        raise KgkitError(f"no entity is labelled {term!r}; try `kgkit find {term}`")
+    if len(found) > 1:
+        labels = labels_of(backend, found, graphs)
+        parents = _parents_of(backend, found, graphs)
+        plabels = labels_of(backend, [p for ps in parents.values() for p in ps], graphs)
+        cands = [
+            Match(
+                iri=x,
+                curie=ws.compact(x),
+                name=labels.get(x, term),
+                language="",
+                kind="label",
+                how="exact",
+                label=labels.get(x),
+                parents=[(ws.compact(p), plabels.get(p)) for p in parents[x]],
+            )
+            for x in found
+        ]
+        raise AmbiguousTermError(term, cands)
+    return found[0]
+
+
+def _by_lang(values: list[ox.Literal]) -> dict[str, list[str]]:
+    out: dict[str, list[str]] = {}
+    for v in values:
+        out.setdefault(v.language or "", []).append(v.value)
+    return {k: sorted(set(v)) for k, v in sorted(out.items())}
+
+
+def show_entity(backend: Backend, term: str, graphs: list[str] | None = None) -> EntityCard:
+    """The card of the entity a CURIE, IRI or exact label names."""
+    iri = resolve_term(backend, term, graphs)
+    res = run_template(backend, "card", {"entity": f"<{iri}>"}, graphs=graphs)
+    fields: dict[str, list] = {}
+    for fld, value in res.rows:
+        fields.setdefault(fld.value, []).append(value)
+    lits = {k: [v for v in fields.get(k, []) if isinstance(v, ox.Literal)] for k in fields}
+    parents = sorted({v.value for v in fields.get("parent", []) if isinstance(v, ox.NamedNode)})
+    plabels = labels_of(backend, parents, graphs)
+    ws = backend.ws
+    children = fields.get("children", [])
+    card = EntityCard(
+        iri=iri,
+        curie=ws.compact(iri),
+        labels=_by_lang(lits.get("label", [])),
+        aliases=_by_lang(lits.get("alias", [])),
+        descriptions=_by_lang(lits.get("description", [])),
+        types=sorted(
+            {ws.compact(v.value) for v in fields.get("type", []) if isinstance(v, ox.NamedNode)}
+        ),
+        parents=[(ws.compact(p), plabels.get(p)) for p in parents],
+        notations=sorted({v.value for v in fields.get("notation", [])}),
+        children=int(children[0].value) if children else 0,
+    )
+    if not any((card.labels, card.aliases, card.descriptions, card.types, card.parents)) and (
+        not card.children and not card.notations
+    ):
+        ask = run_query(
+            backend, f"ASK {{ {{ <{iri}> ?p ?o }} UNION {{ ?s ?p <{iri}> }} }}", graphs=graphs
+        )
+        if not ask.boolean:
+            raise KgkitError(f"{card.curie}: no statement in the graphs mentions it")
+    return card
+
+
+def format_card(card: EntityCard) -> str:
+    """The card as text, one field a line."""
+    out = [f"{card.curie}  <{card.iri}>"]
+
+    def langs(title: str, values: dict[str, list[str]]) -> None:
+        for lang, texts in values.items():
+            for t in texts:
+                out.append(f"  {title:<12} {t}" + (f"  @{lang}" if lang else ""))
+
+    langs("label", card.labels)
+    langs("alias", card.aliases)
+    langs("description", card.descriptions)
+    for code in card.notations:
+        out.append(f"  {'code':<12} {code}")
+    for t in card.types:
+        out.append(f"  {'type':<12} {t}")
+    for curie, label in card.parents:
+        out.append(f"  {'parent':<12} {curie}" + (f"  {label}" if label else ""))
+    out.append(f"  {'children':<12} {card.children}")
+    return "\n".join(out) + "\n"
+
+
+_HOW = {"exact": 0, "prefix": 1, "word": 2, "substring": 3}
+
+
+def find_entities(
+    backend: Backend,
+    text: str,
+    language: str | None = None,
+    limit: int = 20,
+    graphs: list[str] | None = None,
+) -> list[Match]:
+    """Entities whose label or alias holds ``text`` (ignoring case), best first.
+
+    Ranking: the whole name equal to the text, then names starting with it, then
+    a word starting with it, then anywhere; labels before aliases; shorter names
+    first. Each match carries its parents, so two entities sharing a name can be
+    told apart.
+    """
+    if not text.strip():
+        raise KgkitError("give some text to look for")
+    params = {"text": text, "match": "substring"}
+    if language:
+        params["lang"] = language
+    res = run_template(backend, "search", params, graphs=graphs)
+    needle = text.casefold()
+    best: dict[str, tuple] = {}
+    for item, name, kind in res.rows:
+        folded = name.value.casefold()
+        if folded == needle:
+            how = "exact"
+        elif folded.startswith(needle):
+            how = "prefix"
+        elif re.search(r"(?:^|\W)" + re.escape(needle), folded):
+            how = "word"
+        else:
+            how = "substring"
+        key = (_HOW[how], kind.value != "label", len(name.value), name.value, item.value)
+        if item.value not in best or key < best[item.value][0]:
+            best[item.value] = (key, name, kind.value, how)
+    ranked = sorted(best.items(), key=lambda kv: kv[1][0])[:limit]
+    iris = [iri for iri, _ in ranked]
+    labels = labels_of(backend, iris, graphs)
+    parents = _parents_of(backend, iris, graphs)
+    plabels = labels_of(backend, [p for ps in parents.values() for p in ps], graphs)
+    ws = backend.ws
+    return [
+        Match(
+            iri=iri,
+            curie=ws.compact(iri),
+            name=name.value,
+            language=name.language or "",
+            kind=kind,
+            how=how,
+            label=labels.get(iri),
+            parents=[(ws.compact(p), plabels.get(p)) for p in parents[iri]],
+        )
+        for iri, (_, name, kind, how) in ranked
+    ]
+
+
+def tree_of(
+    backend: Backend,
+    term: str,
+    depth: int = 2,
+    max_children: int = 50,
+    graphs: list[str] | None = None,
+) -> list[TreeLine]:
+    """The hierarchy below an entity, ``depth`` levels deep, as lines in display order.
+
+    Each line counts the distinct entities below it (all levels, not only those
+    shown). An entity with several parents is shown in full once; where it comes
+    again it is marked ``repeat``. A child that is also an ancestor on the way
+    down closes a cycle: it is marked ``cycle`` and not followed. At most
+    ``max_children`` children are shown under one entity, then a ``more`` line.
+    """
+    if depth < 0:
+        raise KgkitError("--depth must be 0 or more")
+    root = resolve_term(backend, term, graphs)
+    tpl = load_template(backend.ws, "descendants")
+    text, _ = bind_template(tpl, {"root": f"<{root}>"}, backend.ws)
+    children: dict[str, set[str]] = {}
+    for parent, item in run_query(backend, text, graphs=graphs).rows:
+        if isinstance(parent, ox.NamedNode) and isinstance(item, ox.NamedNode):
+            children.setdefault(parent.value, set()).add(item.value)
+    kids = {k: sorted(v) for k, v in children.items()}
+
+    def below(node: str) -> int:
+        seen = {node}
+        queue = deque([node])
+        while queue:
+            for c in kids.get(queue.popleft(), ()):
+                if c not in seen:
+                    seen.add(c)
+                    queue.append(c)
+        return len(seen) - 1
+
+    lines: list[TreeLine] = []
+    shown: set[str] = set()
+
+    def visit(node: str, level: int, path: tuple[str, ...]) -> None:
+        shown.add(node)
+        lines.append(TreeLine(level, node, "", None, below(node), 0))
+        if level >= depth:
+            return
+        cs = kids.get(node, [])
+        for c in cs[:max_children]:
+            if c in path or c == node:
+                lines.append(TreeLine(level + 1, c, "", None, 0, 0, mark="cycle"))
+            elif c in shown:
+                lines.append(TreeLine(level + 1, c, "", None, below(c), 0, mark="repeat"))
+            else:
+                visit(c, level + 1, (*path, node))
+        if len(cs) > max_children:
+            lines.append(
+                TreeLine(level + 1, "", "", None, 0, 0, mark="more", more=len(cs) - max_children)
+            )
+
+    visit(root, 0, ())
+    iris = [ln.iri for ln in lines if ln.iri]
+    labels = labels_of(backend, iris, graphs)
+    parents = _parents_of(backend, iris, graphs)
+    for ln in lines:
+        if ln.iri:
+            ln.curie = backend.ws.compact(ln.iri)
+            ln.label = labels.get(ln.iri)
+            ln.parents = len(parents.get(ln.iri, []))
+    return lines
+
+
+def format_tree(lines: list[TreeLine]) -> str:
+    """The tree as indented text, two spaces a level."""
+    out = []
+    for ln in lines:
+        pad = "  " * ln.depth
+        if ln.mark == "more":
+            out.append(f"{pad}… {ln.more} more")
+            continue
+        text = f"{pad}{ln.label}  {ln.curie}" if ln.label else f"{pad}{ln.curie}"
+        notes = []
+        if ln.mark == "cycle":
+            notes.append("cycle: an ancestor of itself, not followed")
+        else:
+            if ln.below:
+                notes.append(f"{ln.below} below")
+            if ln.parents > 1:
+                notes.append(f"{ln.parents} parents")
+            if ln.mark == "repeat":
+                notes.append("shown above")
+        if notes:
+            text += "  (" + "; ".join(notes) + ")"
+        out.append(text)
+    return "\n".join(out) + "\n"
+
+
+def format_matches(matches: list[Match]) -> str:
+    return "".join(_describe(m) + "\n" for m in matches)
