@@ -216,6 +216,24 @@ def test_worked_cycle(workspace):
     assert topics_of(r3.path)["dragon-boat"] == dep
     assert sorted(p.name for p in home.iterdir()) == ["1.0.0", "2.0.0", "2.0.1", "build"]
 
+    # a third dump: the successor goes too, redirected again; the older pointer follows
+    t3 = topics_2()
+    del t3["dragon-boat-racing"]
+    redirect = [f"<{G}dragon-boat-racing> <{SAME}> <{G}sea-kayaking> ."]
+    setup(ws, dump(t3, redirect), "dump-3.nt")
+    r4 = make_release(ws, spec)
+    assert r4.version == "3.0.0"
+    t4 = topics_of(r4.path)
+    assert t4["dragon-boat-racing"]["replaced_by"] == "sea-kayaking"
+    assert t4["dragon-boat"]["replaced_by"] == "sea-kayaking"
+    # (setup wrote the curation file afresh: the set_label edit is gone, and so is its effect)
+    assert [(c.kind, c.topic, c.cause, c.before, c.after) for c in r4.diff.changes] == [
+        ("deprecated", "dragon-boat-racing", "graph", None, "sea-kayaking"),
+        ("relabelled", "sport", "curation", "sports", "sport"),
+        ("alias-removed", "sport", "curation", "sport", None),
+        ("replacement-changed", "dragon-boat", "graph", "dragon-boat-racing", "sea-kayaking"),
+    ]
+
 
 def test_release_is_reproducible(tmp_path):
     """Same inputs in two workspaces: the same bytes, except the manifest's release time."""

@@ -136,11 +136,13 @@ def find_replacements(
 
 
 def _follow(rep: str | None, records: dict[str, dict]) -> str | None:
-    seen = set()
+    """Follow replacements of deprecated topics to an active one; keep ``rep`` if the
+    chain ends nowhere active (a deprecated successor is still the truth)."""
+    start, seen = rep, set()
     while rep and rep in records and not _active(records[rep]) and rep not in seen:
         seen.add(rep)
         rep = records[rep].get("replaced_by")
-    return rep if rep in records and _active(records[rep]) else None
+    return rep if rep in records and _active(records[rep]) else start
 
 
 def _deprecated_record(t: dict, rep: str | None) -> dict:
