@@ -359,3 +359,21 @@ def test_replacement_from_recorded_same_as():
     assert find_replacements(None, gone, new) == {"dragon-boat": ("dragon-boat-racing", "same-as")}
     new["dragon-boat-racing"]["status"] = "deprecated"
     assert find_replacements(None, gone, new) == {"dragon-boat": ("paddling", "same-as")}
+
+
+def test_input_changed_during_release_is_refused(workspace, monkeypatch):
+    spec = setup(workspace, dump(TOPICS_1))
+    import kgkit.vocab.compile as comp
+
+    real = comp.compile_vocabulary
+
+    def compile_then_edit(*a, **k):
+        res = real(*a, **k)
+        with open(workspace.vocab_dir / "sport.curation.yaml", "a", encoding="utf-8") as fh:
+            fh.write("  - add_alias: {topic: sport, alias: athletics, language: en}\n")
+        return res
+
+    monkeypatch.setattr(comp, "compile_vocabulary", compile_then_edit)
+    with pytest.raises(ReleaseError, match="curation changed while the release was made"):
+        make_release(workspace, spec)
+    assert sorted(p.name for p in (workspace.vocab_dir / "sport").iterdir()) == ["build"]

@@ -232,6 +232,20 @@ def _sources(ws: Workspace, spec) -> list[dict]:
     return source_entries(graphs)
 
 
+def _inputs(ws: Workspace, spec) -> dict:
+    """The manifest's record of what the compile read: graphs, spec, curation, templates."""
+    curation = spec.curation if spec.curation and spec.curation.is_file() else None
+    return {
+        "sources": _sources(ws, spec),
+        "spec": {"path": _rel(spec.path, ws.root), "sha256": file_sha256(spec.path)},
+        "curation": {
+            "path": _rel(spec.curation, ws.root),
+            "sha256": file_sha256(curation) if curation else None,
+        },
+        "templates": _template_entries(ws, spec),
+    }
+
+
 def _write(folder: Path, name: str, text: str) -> None:
     with open(folder / name, "w", encoding="utf-8", newline="\n") as fh:
         fh.write(text)
@@ -249,8 +263,10 @@ def make_release(
 
     ``version``: the version to use instead of the one the rules give; it must be
     greater than the previous release. With nothing changed since the previous
-    release and no ``version``, raises :class:`NothingChangedError` (nothing is
-    written). Raises :class:`ReleaseError` when the release folder exists.
+    release and no ``version``, raises :class:`NothingChangedError` (no release is
+    written; the build folder holds the fresh compile). Raises :class:`ReleaseError`
+    when the release folder exists, or when the store or an input file changed while
+    the release was being made.
     """
     from kgkit.vocab.compile import Build, compile_vocabulary
     from kgkit.vocab.spec import load_spec
@@ -266,6 +282,8 @@ def make_release(
         if (home / str(wanted)).exists():
             raise ReleaseError(f"{home / str(wanted)}: release exists already; not overwriting it")
 
+    # the inputs, taken before the compile and checked again after it
+    inputs = _inputs(ws, spec)
     result = compile_vocabulary(ws, spec.path, strict=strict, progress=progress)
     build = Path(result.output)
     report = json.loads((build / "report.json").read_text(encoding="utf-8"))
@@ -328,6 +346,8 @@ def make_release(
     diff = diff_topics(
         old, records, old_report, report, str(previous) if previous else "none", "release"
     )
+    if previous is None:
+        diff.changes = []  # nothing to compare a first release with
     ver, level = next_version(previous, diff.kinds() if previous else [], version)
     target = home / str(ver)
     if target.exists():
@@ -346,7 +366,13 @@ def make_release(
     files["changelog.json"] = changelog_json(cl)
     files["changelog.md"] = changelog_markdown(cl, diff)
 
-    curation = spec.curation if spec.curation and spec.curation.is_file() else None
+    again = _inputs(ws, spec)
+    changed = sorted(k for k in inputs if inputs[k] != again[k])
+    if changed:
+        raise ReleaseError(
+            f"{spec.path}: {' and '.join(changed)} changed while the release was made; "
+            "nothing released, run it again"
+        )
     home.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{ver}.tmp-", dir=home))
     try:
@@ -360,13 +386,7 @@ def make_release(
             "previous": str(previous) if previous else None,
             "files": hashed,
             "content_sha256": content_hash(hashed),
-            "sources": _sources(ws, spec),
-            "spec": {"path": _rel(spec.path, ws.root), "sha256": file_sha256(spec.path)},
-            "curation": {
-                "path": _rel(spec.curation, ws.root),
-                "sha256": file_sha256(curation) if curation else None,
-            },
-            "templates": _template_entries(ws, spec),
+            **inputs,
             "kgkit_version": kgkit.__version__,
             "counts": {
                 "topics": active_n,
