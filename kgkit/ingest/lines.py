@@ -40,7 +40,7 @@ __all__ = [
 ]
 
 #: size of the chunks handed to worker processes (cut at the last line end before it)
-CHUNK_BYTES = 4 << 20
+CHUNK_BYTES = 1 << 20
 _AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a chunk
 
 _CAUSE_PREFIX = re.compile(r"^Parser error\b.*?(?:column \d+|columns \d+ and \d+)\s*:\s*")
@@ -326,8 +326,11 @@ def process_chunks(
         for first, data in it:
             yield process_chunk(spec, first, data, terms)
         return
-    # spawn, not fork: the importing process holds the store and its threads
-    ctx = multiprocessing.get_context("spawn")
+    # fork where there is one: spawn would re-run the caller's main module in every
+    # worker (a script without a __main__ guard would start over). Workers never touch
+    # the store the parent holds open, and leave through os._exit (no finalisers).
+    methods = multiprocessing.get_all_start_methods()
+    ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
     with ProcessPoolExecutor(
         max_workers=jobs, mp_context=ctx, initializer=_init_worker, initargs=(spec,)
     ) as pool:

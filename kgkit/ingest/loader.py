@@ -24,6 +24,7 @@ import json
 import os
 import re
 import tempfile
+import threading
 import time
 from collections.abc import Callable
 from dataclasses import asdict, dataclass, field
@@ -303,15 +304,27 @@ def _bulk_segments(
 
 
 class _Pending:
-    """Statements waiting to be loaded, so that the store gets large batches."""
+    """Statements waiting to be loaded, so that the store gets large batches.
 
-    def __init__(self, run: _Run, label: str):
+    With ``background`` (parallel imports), kept statements are loaded by a thread while
+    the workers go on parsing (the store's bulk loader releases the GIL); one load at a
+    time, and every other write to the store waits for it.
+    """
+
+    def __init__(self, run: _Run, label: str, background: bool = False):
         self.run, self.label = run, label
         self.raw: list[bytes] = []
         self.raw_first = 0
         self.raw_lines = 0
         self.text: list[bytes] = []
         self.text_count = 0
+        self.background = background
+        batch = run.opts.batch_size
+        # smaller loads when they overlap with parsing, but not so small that the bulk
+        # loader's fixed cost per call dominates
+        self.text_batch = min(batch, max(100_000, batch // 4)) if background else batch
+        self._thread: threading.Thread | None = None
+        self._error: BaseException | None = None
 
     def add(self, res: ChunkResult) -> None:
         run = self.run
@@ -336,28 +349,58 @@ class _Pending:
                 - len(res.quads or ())
                 - (res.blank_text.count(b"\n") if res.blank_text else 0)
             )
-            if self.text_count >= run.opts.batch_size:
+            if self.text_count >= self.text_batch:
                 self.flush_text()
         if res.quads:
+            self.wait()
             run.load_quads(res.quads)
         if res.blank_text:
+            self.wait()
             run.load_quads(ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES))
 
     def flush_raw(self) -> None:
         if self.raw:
             data = b"".join(self.raw)
             self.raw, self.raw_lines = [], 0
+            self.wait()
             _load_raw(self.run, self.label, self.raw_first, data, ox.RdfFormat.N_TRIPLES)
 
     def flush_text(self) -> None:
         if self.text:
             data = b"".join(self.text)
             self.text, self.text_count = [], 0
+            self.wait()
+            if self.background:
+                self._thread = threading.Thread(target=self._load, args=(data,), daemon=True)
+                self._thread.start()
+            else:
+                self.run.load_text(data)
+
+    def _load(self, data: bytes) -> None:
+        try:
             self.run.load_text(data)
+        except BaseException as exc:  # handed to the importing thread by wait()
+            self._error = exc
+
+    def wait(self) -> None:
+        """Wait for the background load, raising its error if it failed."""
+        if self._thread is not None:
+            self._thread.join()
+            self._thread = None
+        if self._error is not None:
+            error, self._error = self._error, None
+            raise error
 
     def flush(self) -> None:
         self.flush_raw()
         self.flush_text()
+        self.wait()
+
+    def abandon(self) -> None:
+        """On failure: let a background load finish before the content graph is removed."""
+        if self._thread is not None:
+            self._thread.join()
+            self._thread = None
 
 
 def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
@@ -451,11 +494,14 @@ def _load_source(
         chunks = iter_byte_chunks(source.stream, _lines.CHUNK_BYTES)
     else:
         chunks = iter_line_chunks(source.stream, opts.batch_size, tick)
-    pending = _Pending(run, source.label)
-    for res in process_chunks(spec, chunks, opts.jobs if parallel else 1):
-        pending.add(res)
-        tick()
-    pending.flush()
+    pending = _Pending(run, source.label, background=parallel)
+    try:
+        for res in process_chunks(spec, chunks, opts.jobs if parallel else 1):
+            pending.add(res)
+            tick()
+        pending.flush()
+    finally:
+        pending.abandon()
     tick()
 
 
