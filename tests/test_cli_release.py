@@ -69,7 +69,7 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
     v = kgkit("verify", str(home / "2.0.0"))
     assert v.exit_code == 1
     assert v.output.startswith("topics.yaml: changed (sha256 ")
-    assert v.output.endswith(f"{home / '2.0.0'}: 1 problems\n")
+    assert v.output.endswith(f"{home / '2.0.0'}: 1 problem\n")
     v = kgkit("verify", str(home / "2.0.0"), "--json")
     assert last_json(v.output)["problems"][0]["file"] == "topics.yaml"
 

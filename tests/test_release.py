@@ -377,3 +377,19 @@ def test_input_changed_during_release_is_refused(workspace, monkeypatch):
     with pytest.raises(ReleaseError, match="curation changed while the release was made"):
         make_release(workspace, spec)
     assert sorted(p.name for p in (workspace.vocab_dir / "sport").iterdir()) == ["build"]
+
+
+def test_verify_reports_missing_unlisted_and_edited_manifest(workspace):
+    r = make_release(workspace, setup(workspace, dump(TOPICS_1)))
+    (r.path / "changelog.md").unlink()
+    (r.path / "notes.txt").write_text("hi\n")
+    m = json.loads((r.path / "manifest.json").read_text())
+    m["files"]["../kgkit.yaml"] = {"sha256": "0" * 64, "bytes": 1}
+    (r.path / "manifest.json").write_text(json.dumps(m))
+    problems = {(p["file"], p["problem"]) for p in verify_release(r.path).problems}
+    assert problems == {
+        ("changelog.md", "missing"),
+        ("notes.txt", "not listed in the manifest"),
+        ("../kgkit.yaml", "not a plain file name"),
+        ("manifest.json", "content_sha256 does not match its list of files"),
+    }

@@ -123,7 +123,8 @@ class VerifyResult:
         if self.ok:
             lines.append(f"{self.path}: release {self.version} intact ({self.checked} files)")
         else:
-            lines.append(f"{self.path}: {len(self.problems)} problems")
+            n = len(self.problems)
+            lines.append(f"{self.path}: {n} problem{'' if n == 1 else 's'}")
         return "\n".join(lines) + "\n"
 
 
@@ -153,8 +154,11 @@ def verify_release(folder: Path | str) -> VerifyResult:
     res = VerifyResult(str(folder), data.get("version"))
     files = data["files"]
     for name in sorted(files):
-        p = folder / name
         res.checked += 1
+        if not name or "/" in name or "\\" in name or name in (".", ".."):
+            res.problems.append({"file": name, "problem": "not a plain file name"})
+            continue
+        p = folder / name
         if not p.is_file():
             res.problems.append({"file": name, "problem": "missing"})
             continue
