@@ -1,0 +1,180 @@
+"""A remote SPARQL 1.1 endpoint: a real server on loopback answers like the embedded store.
+
+The server is the one the ``oxigraph`` package on PyPI ships (``oxigraph
+serve-read-only``), started here on 127.0.0.1 over a copy of the workspace store.
+"""
+
+from __future__ import annotations
+
+import shutil
+import socket
+import subprocess
+import sys
+import threading
+import time
+from pathlib import Path
+
+import pytest
+from test_query_support import make_explore_workspace
+
+from kgkit.entities import find_entities, show_entity, tree_of
+from kgkit.errors import KgkitError, QueryError
+from kgkit.query import EndpointBackend, connect, run_query
+from kgkit.templates import list_templates, run_template
+from kgkit.workspace import load_workspace
+
+SERVER = Path(sys.executable).with_name("oxigraph")
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def _with_endpoint(ws, url: str, root: Path):
+    root.mkdir(parents=True)
+    text = (ws.root / "kgkit.yaml").read_text(encoding="utf-8")
+    text = text.replace("endpoint: null", f"endpoint: {url}")
+    (root / "kgkit.yaml").write_text(text, encoding="utf-8")
+    return load_workspace(root)
+
+
+@pytest.fixture(scope="module")
+def pair(tmp_path_factory):
+    if not SERVER.exists():
+        pytest.skip(f"no oxigraph server next to {sys.executable} (pip install oxigraph)")
+    base = tmp_path_factory.mktemp("ep")
+    local = make_explore_workspace(base / "local")
+    copy = base / "served-store"
+    shutil.copytree(local.store_path, copy)
+    port = _free_port()
+    proc = subprocess.Popen(
+        [str(SERVER), "serve-read-only", "--location", str(copy), "--bind", f"127.0.0.1:{port}"],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+    )
+    try:
+        deadline = time.monotonic() + 20
+        while True:
+            try:
+                socket.create_connection(("127.0.0.1", port), timeout=0.2).close()
+                break
+            except OSError:
+                if proc.poll() is not None or time.monotonic() > deadline:
+                    raise RuntimeError(f"server did not start: {proc.stderr.read()!r}") from None
+                time.sleep(0.1)
+        remote = _with_endpoint(local, f"http://127.0.0.1:{port}/query", base / "remote")
+        yield local, remote
+    finally:
+        proc.terminate()
+        proc.wait(timeout=10)
+
+
+def _params(name):
+    return {
+        "descendants": {"root": "t:sport"},
+        "ancestors": {"entity": "t:canoe-polo"},
+        "children": {"entity": "t:water-sports"},
+        "instances": {"class": "t:Topic"},
+        "search": {"text": "polo", "match": "substring"},
+        "card": {"entity": "t:canoe-polo"},
+        "popularity": {"root": "t:sport"},
+    }.get(name, {})
+
+
+def _all(backend, name, graphs=None):
+    res = run_template(backend, name, _params(name), graphs=graphs)
+    return res.variables, list(res.rows)
+
+
+def test_endpoint_backend_sees_the_same_graphs(pair):
+    local, remote = pair
+    with connect(local) as a, connect(remote) as b:
+        assert isinstance(b, EndpointBackend)
+        assert a.graph_names == b.graph_names
+
+
+def test_every_template_gives_the_same_results(pair):
+    local, remote = pair
+    names = [t.name for t in list_templates(local)]
+    assert len(names) >= 10
+    with connect(local) as a, connect(remote) as b:
+        for name in names:
+            here, there = _all(a, name), _all(b, name)
+            assert here == there, name
+            assert here[1], f"{name} gave no rows on the fixture"
+        assert _all(a, "descendants", ["topics"]) == _all(b, "descendants", ["topics"])
+        assert _all(a, "descendants", ["other"]) == _all(b, "descendants", ["other"])
+
+
+def test_queries_and_entity_commands_through_the_endpoint(pair):
+    local, remote = pair
+    q = "SELECT ?g (COUNT(*) AS ?n) WHERE { GRAPH ?g { ?s ?p ?o } } GROUP BY ?g ORDER BY ?g"
+    with connect(local) as a, connect(remote) as b:
+        assert list(run_query(a, q).rows) == list(run_query(b, q).rows)
+        assert run_query(b, "ASK { t:rowing ?p ?o }").boolean is True
+        c = "CONSTRUCT WHERE { t:rowing ?p ?o }"
+        assert sorted(map(str, run_query(a, c).triples)) == sorted(
+            map(str, run_query(b, c).triples)
+        )
+        assert show_entity(a, "t:canoe-polo") == show_entity(b, "t:canoe-polo")
+        assert find_entities(a, "polo") == find_entities(b, "polo")
+        assert tree_of(a, "sport", 3) == tree_of(b, "sport", 3)
+
+
+def test_endpoint_errors_are_one_line(pair):
+    local, remote = pair
+    with connect(remote) as b:
+        with pytest.raises(QueryError, match="syntax error"):
+            run_query(b, "SELECT * WHERE { ?s ?p }")
+        with pytest.raises(QueryError, match="no updates to a remote endpoint"):
+            run_query(b, "DROP ALL", allow_update=True)
+        with pytest.raises(QueryError, match="--allow-update"):
+            run_query(b, "DROP ALL")
+    bad = _with_endpoint(
+        local, remote.config.endpoint.replace("/query", "/nowhere"), remote.root.parent / "bad"
+    )
+    with pytest.raises(QueryError) as err, connect(bad):
+        pass
+    assert "HTTP 404" in str(err.value) and "\n" not in str(err.value)
+
+
+def test_endpoint_refused_and_silent(tmp_path):
+    ws = make_explore_workspace(tmp_path / "ws")
+    port = _free_port()
+    closed = _with_endpoint(ws, f"http://127.0.0.1:{port}/query", tmp_path / "closed")
+    with pytest.raises(KgkitError, match="cannot reach the endpoint"), connect(closed):
+        pass
+    # a listener that accepts and never answers: a time-out, reported in one line
+    sock = socket.socket()
+    sock.bind(("127.0.0.1", 0))
+    sock.listen(5)
+    held = []
+    stop = threading.Event()
+
+    def accept():
+        sock.settimeout(0.1)
+        while not stop.is_set():
+            try:
+                held.append(sock.accept()[0])
+            except TimeoutError:
+                continue
+
+    t = threading.Thread(target=accept, daemon=True)
+    t.start()
+    try:
+        silent = _with_endpoint(
+            ws, f"http://127.0.0.1:{sock.getsockname()[1]}/query", tmp_path / "silent"
+        )
+        with (
+            pytest.raises(QueryError, match=r"no answer within 0.5 s"),
+            connect(silent, timeout=0.5),
+        ):
+            pass
+    finally:
+        stop.set()
+        t.join()
+        for c in held:
+            c.close()
+        sock.close()
