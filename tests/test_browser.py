@@ -201,6 +201,8 @@ def test_search_box_filters_the_tree_and_opens_a_topic(browser, demo_workspace, 
     browser.type_text("FREIWASSER")
     browser.wait_for("document.getElementById('search-status').textContent.includes('topic match')")
     assert browser.evaluate(VISIBLE_HITS) == ["open-water-swimming"]
+    hint = browser.evaluate("document.querySelector('#tree li.hit .hint').textContent")
+    assert hint == "label de: Freiwasserschwimmen"  # the English label is shown, the hit named
 
     # nothing found says so
     browser.evaluate("document.getElementById('search').select()")

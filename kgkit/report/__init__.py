@@ -197,6 +197,30 @@ def _tagged(cls: str, value: str) -> str:
     return f'<span class="{cls} {cls}-{_e(value)}">{_e(value)}</span>'
 
 
+def _stale_line(edit: object) -> str:
+    """One stale curation edit: which edit, what it did, on what, and why it no longer applies."""
+    if not isinstance(edit, dict):
+        return _e(str(edit))
+    skip = {"action", "edit", "target", "reason", "note"}
+    args = ", ".join(
+        f"{k}: {json.dumps(v, ensure_ascii=False)}"
+        for k, v in sorted(edit.items())
+        if k not in skip
+    )
+    text = (
+        f"<strong>{_e(str(edit.get('action', 'edit')))}</strong> {_topic_link(edit.get('target'))}"
+    )
+    if args:
+        text += f" ({_e(args)})"
+    if edit.get("edit") is not None:
+        text = f"edit {_e(str(edit['edit']))}: " + text
+    if edit.get("reason"):
+        text += f" — {_e(str(edit['reason']))}"
+    if edit.get("note"):
+        text += f' <span class="note-text">note: {_e(str(edit["note"]))}</span>'
+    return text
+
+
 def _topic_link(tid: str | None) -> str:
     if not tid:
         return ""
@@ -211,7 +235,7 @@ def _bar_chart(title: str, bars: list[tuple[str, float, str]], unit: str = "") -
             '<p class="empty">no data</p></figure>'
         )
     row, label_w, width = 26, 120, 560
-    plot_w = width - label_w - 70
+    plot_w = width - label_w - 120  # room for the value text after the longest bar
     top = max(v for _, v, _ in bars) or 1
     height = row * len(bars) + 10
     parts = [
@@ -273,7 +297,7 @@ def render_page(review: Review) -> str:
     amb_rows = [
         [
             f"<code>{_e(a.get('key', ''))}</code>",
-            " ".join(_topic_link(t) for t in a.get("topics") or []),
+            ", ".join(_topic_link(t) for t in a.get("topics") or []),
             _e(str(a.get("action", ""))),
         ]
         for a in ambiguous
@@ -317,7 +341,15 @@ def render_page(review: Review) -> str:
     else:
         findings = lint.get("findings") or []
         n_lint = len(findings)
-        lint_body = _table(
+        per_check: dict[tuple[str, str], int] = {}
+        for f in findings:
+            k = (f.get("level", ""), f.get("check", ""))
+            per_check[k] = per_check.get(k, 0) + 1
+        chips = "".join(
+            f'<li><span class="lvl lvl-{_e(lvl)}">{_e(check)}</span> <b>{n:,}</b></li>'
+            for (lvl, check), n in sorted(per_check.items(), key=lambda kv: (kv[0][0], -kv[1]))
+        )
+        lint_body = (f'<ul class="chips">{chips}</ul>' if chips else "") + _table(
             ["level", "check", "concepts", "finding"],
             [
                 [
@@ -375,10 +407,7 @@ def render_page(review: Review) -> str:
         if stale:
             stale_html = (
                 "<h3>Curation edits that no longer apply</h3><ul class='stale'>"
-                + "".join(
-                    f"<li><code>{_e(json.dumps(s, ensure_ascii=False, sort_keys=True))}</code></li>"
-                    for s in stale
-                )
+                + "".join(f"<li>{_stale_line(x)}</li>" for x in stale)
                 + "</ul>"
             )
         log_body = (

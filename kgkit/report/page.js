@@ -161,10 +161,13 @@
       hint.textContent = "";
       if (m) {
         hits.add(id);
-        if (m[1].startsWith("label")) name.append(markText(label(byId.get(id)), q));
+        const shown = label(byId.get(id));
+        if (m[1].startsWith("label") && m[0] === shown) name.append(markText(shown, q));
         else {
-          name.textContent = label(byId.get(id));
-          hint.append(m[1].split(" ")[0] + ": ", markText(m[0], q));
+          // matched through an alias, a label in another language, or the id: say which
+          name.textContent = shown;
+          const what = m[1].startsWith("alias") ? "alias" : m[1];
+          hint.append(what + ": ", markText(m[0], q));
         }
       } else {
         name.textContent = label(byId.get(id));
