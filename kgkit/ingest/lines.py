@@ -132,6 +132,8 @@ class ChunkSpec:
     format: str  # "nt", "nq" or "records"
     slice: Slice = field(default_factory=Slice)
     workspace: Workspace | None = None  # entity records map fields through its profile
+    #: hand N-Triples with nothing to slice back unparsed, for the store to parse
+    raw_ok: bool = True
 
 
 @dataclass
@@ -182,7 +184,7 @@ def process_chunk(
         return res
     fmt = RDF_FORMATS[spec.format]
     sl = spec.slice
-    if spec.format == "nt" and sl.is_everything and b"_:" not in data:
+    if spec.raw_ok and spec.format == "nt" and sl.is_everything and b"_:" not in data:
         res.read = sum(1 for x in split_lines(data) if is_statement(x))
         res.raw = data
         return res

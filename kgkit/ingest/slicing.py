@@ -34,13 +34,17 @@ class Slice:
 
     predicates: frozenset[str] | None = None
     languages: tuple[str, ...] | None = None
+    #: only statements about these subjects (IRIs); used by ``kgkit slice --roots``
+    subjects: frozenset[str] | None = None
 
     @property
     def is_everything(self) -> bool:
-        return self.predicates is None and self.languages is None
+        return self.predicates is None and self.languages is None and self.subjects is None
 
     def keeps(self, quad: ox.Quad | ox.Triple) -> bool:
         if self.predicates is not None and quad.predicate.value not in self.predicates:
+            return False
+        if self.subjects is not None and quad.subject.value not in self.subjects:
             return False
         if self.languages is not None:
             obj = quad.object
@@ -56,4 +60,6 @@ class Slice:
             parts.append(f"{len(self.predicates)} predicates")
         if self.languages is not None:
             parts.append("languages " + ",".join(self.languages))
+        if self.subjects is not None:
+            parts.append(f"{len(self.subjects)} subjects")
         return "; ".join(parts) or "everything"

@@ -1,0 +1,211 @@
+"""Slicing a dump to a smaller N-Triples file, without loading it into a store.
+
+For dumps too big to import: keep only what a vocabulary needs (the profile's
+predicates or a given list, the chosen languages) and, with ``roots``, only statements
+about entities reachable from those roots through the profile's parent predicates. The
+closure needs every parent edge first, so that case reads the input twice: pass 1 collects
+the parent edges, pass 2 writes the statements about the entities found.
+
+Parsing and slicing are the import's own (:func:`kgkit.ingest.lines.process_chunk`), in
+worker processes with ``jobs`` > 1, so a slice keeps exactly what ``kgkit import`` with the
+same options would load. Statements are written as N-Triples in input order, chunk by chunk
+(within a chunk, statements with blank nodes come after the others), the same bytes for
+any number of workers; graph names of N-Quads are dropped, as an import folds them;
+duplicates are kept; blank node labels are prefixed per input file so that files do not
+share blank nodes. The output is written
+to a temporary file and renamed into place: a failed slice leaves no partial output.
+"""
+
+from __future__ import annotations
+
+import gzip
+import os
+import tempfile
+import time
+from collections import defaultdict
+from collections.abc import Callable
+from dataclasses import asdict, dataclass, replace
+from pathlib import Path
+
+import pyoxigraph as ox
+
+import kgkit.ingest.lines as _lines
+from kgkit.errors import KgkitError, ParseError
+from kgkit.ingest.formats import LINE_BASED, detect_format
+from kgkit.ingest.lines import ChunkSpec, iter_byte_chunks, process_chunks
+from kgkit.ingest.loader import Progress, _Rejects
+from kgkit.ingest.slicing import Slice
+from kgkit.ingest.sources import open_source
+from kgkit.workspace import Workspace
+
+__all__ = ["SliceSummary", "reachable_from", "slice_dump"]
+
+
+@dataclass
+class SliceSummary:
+    """What one slice did. ``read == written + filtered + rejected``."""
+
+    output: str
+    files: list[str]
+    read: int = 0
+    written: int = 0
+    filtered: int = 0
+    rejected: int = 0
+    entities: int | None = None  # with roots: entities reachable from them
+    seconds: float = 0.0
+    rejects: str | None = None
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d["seconds"] = round(self.seconds, 3)
+        return d
+
+
+def reachable_from(roots: set[str], edges: dict[str, set[str]]) -> set[str]:
+    """Entities whose parent links lead to one of ``roots`` (the roots included).
+
+    ``edges`` maps a parent to its children.
+
+    >>> sorted(reachable_from({"a"}, {"a": {"b"}, "b": {"c"}, "x": {"y"}}))
+    ['a', 'b', 'c']
+    """
+    seen = set(roots)
+    todo = list(roots)
+    while todo:
+        for child in edges.get(todo.pop(), ()):
+            if child not in seen:
+                seen.add(child)
+                todo.append(child)
+    return seen
+
+
+def _chunks(label: str):
+    source = open_source(label)
+    # chunks of whole lines, the same whatever the number of workers
+    return source, iter_byte_chunks(source.stream, _lines.CHUNK_BYTES)
+
+
+def _scoped(res, scope: str) -> bytes:
+    """The chunk's blank-node statements as N-Triples, labels prefixed with ``scope``."""
+    quads = (
+        res.quads if res.quads else ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES)
+    )
+
+    def term(t):
+        return ox.BlankNode(scope + t.value) if isinstance(t, ox.BlankNode) else t
+
+    return "".join(f"{term(q.subject)} {q.predicate} {term(q.object)} .\n" for q in quads).encode(
+        "utf-8"
+    )
+
+
+def _parent_edges(
+    inputs: list[tuple[str, str]], parents: frozenset[str], ws: Workspace, jobs: int
+) -> dict[str, set[str]]:
+    """Pass 1: parent -> children over every input (bad lines are reported by pass 2)."""
+    edges: dict[str, set[str]] = defaultdict(set)
+    for label, fmt in inputs:
+        spec = ChunkSpec(
+            fmt, Slice(predicates=parents), ws if fmt == "records" else None, raw_ok=False
+        )
+        source, chunks = _chunks(label)
+        try:
+            for res in process_chunks(spec, chunks, jobs):
+                for t in ox.parse(input=res.text, format=ox.RdfFormat.N_TRIPLES):
+                    if isinstance(t.object, ox.NamedNode):
+                        edges[t.object.value].add(t.subject.value)
+        finally:
+            source.close()
+    return edges
+
+
+def slice_dump(
+    ws: Workspace,
+    inputs: list[str],
+    output: str | os.PathLike,
+    slice: Slice,
+    format: str | None = None,
+    roots: list[str] | None = None,
+    on_error: str = "stop",
+    rejects: Path | None = None,
+    jobs: int = 1,
+    progress: Callable[[Progress], None] | None = None,
+) -> SliceSummary:
+    """Write the statements of ``inputs`` that ``slice`` keeps to the N-Triples file ``output``.
+
+    ``roots`` (IRIs) restricts the output to statements about entities reachable from
+    them through the profile's parent predicates. ``output`` ending in ``.gz`` is
+    written gzip-compressed. Returns a summary; raises :class:`ParseError` on the first
+    bad line unless ``on_error`` is ``"skip"``.
+    """
+    t0 = time.perf_counter()
+    if not inputs:
+        raise KgkitError("nothing to slice: give one or more files, or - for standard input")
+    if on_error not in ("stop", "skip"):
+        raise KgkitError(f"--on-error takes 'stop' or 'skip', not {on_error!r}")
+    formats = [detect_format(x, format) for x in inputs]
+    for label, fmt in zip(inputs, formats, strict=True):
+        if fmt not in LINE_BASED:
+            raise KgkitError(
+                f"{label}: kgkit slice reads line-based formats (nt, nq, records), not {fmt}; "
+                "import it instead"
+            )
+        if label != "-" and not Path(label).is_file():
+            raise KgkitError(f"{label}: no such file")
+    if roots and "-" in inputs:
+        raise KgkitError("-: --roots reads the input twice, so it cannot come from standard input")
+    output = Path(output)
+    summary = SliceSummary(output=str(output), files=list(inputs))
+    pairs = list(zip(inputs, formats, strict=True))
+    if roots:
+        parents = frozenset(ws.profile["parent"])
+        if not parents:
+            raise KgkitError("--roots needs parent predicates in the workspace profile")
+        closure = reachable_from(set(roots), _parent_edges(pairs, parents, ws, jobs))
+        summary.entities = len(closure)
+        slice = replace(slice, subjects=frozenset(closure))
+    if rejects is None and on_error == "skip":
+        rejects = output.with_name(output.name + ".rejects.txt")
+    bad = _Rejects(rejects if on_error == "skip" else None)
+    output.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=".slice-", dir=output.parent)
+    raw = os.fdopen(fd, "wb")
+    out = gzip.GzipFile(fileobj=raw, mode="wb", mtime=0) if output.suffix == ".gz" else raw
+    try:
+        for n, (label, fmt) in enumerate(pairs, 1):
+            spec = ChunkSpec(fmt, slice, ws if fmt == "records" else None, raw_ok=False)
+            source, chunks = _chunks(label)
+            scope = f"f{n}x"
+            try:
+                for res in process_chunks(spec, chunks, jobs):
+                    for line, col, cause, text in res.rejects:
+                        if on_error != "skip":
+                            hint = "; run with --on-error skip to set bad statements aside"
+                            raise ParseError(label, line, col, cause + hint)
+                        bad.add(label, line, col, cause, text)
+                        summary.rejected += 1
+                    summary.read += res.read
+                    summary.filtered += res.filtered
+                    summary.written += res.kept
+                    out.write(res.text)
+                    if res.quads or res.blank_text:
+                        out.write(_scoped(res, scope))
+                    if progress:
+                        progress(Progress(label, source.bytes_read, source.size, summary.read))
+            finally:
+                source.close()
+        summary.read += summary.rejected
+        if out is not raw:
+            out.close()
+        raw.close()
+        os.replace(tmp, output)
+    except BaseException:
+        bad.abort()
+        if out is not raw:
+            out.close()
+        raw.close()
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    summary.rejects = bad.commit()
+    summary.seconds = time.perf_counter() - t0
+    return summary
