@@ -8,7 +8,7 @@
 
 from __future__ import annotations
 
-import re
+import functools
 import unicodedata
 from collections.abc import Iterable
 
@@ -19,18 +19,17 @@ __all__ = [
     "choose_labels",
     "fold_space",
     "is_numeric_only",
+    "key_cache",
     "lang_matches",
     "match_key",
     "normalize_alias",
     "resolve_ambiguity",
 ]
 
-_SPACE = re.compile(r"\s+")
-
 
 def fold_space(text: str) -> str:
-    """Whitespace runs folded to one space, stripped."""
-    return _SPACE.sub(" ", text).strip()
+    """Whitespace runs (``str.isspace``, as ``\\s`` in ``re``) folded to one space, stripped."""
+    return " ".join(text.split())
 
 
 def normalize_alias(text: str) -> str:
@@ -43,6 +42,17 @@ def match_key(text: str) -> str:
     return normalize_alias(text).casefold()
 
 
+def key_cache() -> dict[str, str]:
+    """A dict that computes and remembers match keys: ``keys[text]``."""
+
+    class _Keys(dict):
+        def __missing__(self, text: str) -> str:
+            key = self[text] = match_key(text)
+            return key
+
+    return _Keys()
+
+
 def is_numeric_only(text: str) -> bool:
     """True when the text has no letter at all (digits, punctuation, symbols, spaces)."""
     return not any(unicodedata.category(ch).startswith("L") for ch in text)
@@ -53,9 +63,36 @@ def lang_matches(tag: str, ranges: Iterable[str]) -> bool:
     return any(tag == r or (r and tag.startswith(r + "-")) for r in ranges)
 
 
-def _is_kept(tag: str, rules: LanguageRules) -> bool:
-    kept = rules.kept
-    return tag == "" or kept is None or lang_matches(tag, kept) or lang_matches(tag, rules.fallback)
+class _LanguageFilter:
+    """Which language tags the rules keep, remembered per tag (rules hash slowly)."""
+
+    __slots__ = ("_kept", "_usable", "every", "rules")
+
+    def __init__(self, rules: LanguageRules):
+        self.rules = rules
+        self.every = rules.kept is None and not rules.fallback
+        self._kept: dict[str, bool] = {}
+        self._usable: dict[str, bool] = {}
+
+    def kept(self, tag: str) -> bool:
+        """Untagged, or a language the spec keeps (all when it names none)."""
+        v = self._kept.get(tag)
+        if v is None:
+            k = self.rules.kept
+            v = self._kept[tag] = tag == "" or k is None or lang_matches(tag, k)
+        return v
+
+    def usable(self, tag: str) -> bool:
+        """Kept, or a fallback language that may lend its labels."""
+        v = self._usable.get(tag)
+        if v is None:
+            v = self._usable[tag] = self.kept(tag) or lang_matches(tag, self.rules.fallback)
+        return v
+
+
+@functools.lru_cache(maxsize=16)
+def _filter(rules: LanguageRules) -> _LanguageFilter:
+    return _LanguageFilter(rules)
 
 
 def choose_labels(
@@ -73,41 +110,55 @@ def choose_labels(
     Returns (preferred: lang -> text, borrowed: lang -> language lent from,
     others: the (lang, text) labels not chosen, which become aliases).
     """
+    lf = _filter(rules)
+    every = lf.every
     by_lang: dict[str, list[tuple[int, str]]] = {}
     for lang, text, rank in labels:
-        text = fold_space(text)
-        if text and _is_kept(lang, rules):
-            by_lang.setdefault(lang, []).append((rank, text))
+        if every or lf.usable(lang):
+            text = " ".join(text.split())
+            if text:
+                if lang in by_lang:
+                    by_lang[lang].append((rank, text))
+                else:
+                    by_lang[lang] = [(rank, text)]
     pref: dict[str, str] = {}
     others: list[tuple[str, str]] = []
     for lang in sorted(by_lang):
-        ranked = sorted(set(by_lang[lang]))
-        chosen = ranked[0][1]
+        if not every and not lf.kept(lang):
+            continue  # a fallback language only lends its labels
+        ranked = by_lang[lang]
+        if len(ranked) == 1:
+            chosen = ranked[0][1]
+        else:
+            ranked = sorted(set(ranked))
+            chosen = ranked[0][1]
         if override and lang in override:
             chosen = override[lang]
         pref[lang] = chosen
-        others.extend((lang, t) for _, t in ranked if t != chosen)
-    for lang, text in sorted((override or {}).items()):
-        if lang not in pref:
-            pref[lang] = text
-    # fallback languages only lend labels; they are not kept as languages of their own
-    if rules.kept is not None:
-        for lang in [x for x in pref if x and not lang_matches(x, rules.kept)]:
-            del pref[lang]
-        others = [(lg, t) for lg, t in others if not lg or lang_matches(lg, rules.kept)]
+        if len(ranked) > 1 or chosen != ranked[0][1]:
+            others.extend((lang, t) for _, t in ranked if t != chosen)
+    if override:
+        for lang, text in sorted(override.items()):
+            pref.setdefault(lang, text)
     borrowed: dict[str, str] = {}
-    wanted = rules.kept or ()
-    for lang in wanted:
-        if lang == "" or any(lang_matches(x, [lang]) for x in pref):
-            continue
-        for fb in rules.fallback:
-            hit = sorted(x for x in by_lang if x == fb or lang_matches(x, [fb]))
-            if hit:
-                ranked = sorted(set(by_lang[hit[0]]))
-                pref[lang] = ranked[0][1]
-                borrowed[lang] = hit[0]
-                break
+    if rules.fallback and rules.kept:
+        for lang in rules.kept:
+            if lang == "" or any(lang_matches(x, [lang]) for x in pref):
+                continue
+            for fb in rules.fallback:
+                hit = sorted(x for x in by_lang if lang_matches(x, [fb]))
+                if hit:
+                    pref[lang] = sorted(set(by_lang[hit[0]]))[0][1]
+                    borrowed[lang] = hit[0]
+                    break
+    if borrowed:
+        pref = dict(sorted(pref.items()))
     return pref, borrowed, others
+
+
+@functools.lru_cache(maxsize=64)
+def _stop_keys(stop: tuple[str, ...]) -> frozenset[str]:
+    return frozenset(match_key(s) for s in stop)
 
 
 def clean_aliases(
@@ -117,6 +168,7 @@ def clean_aliases(
     rules: AliasRules,
     languages: LanguageRules,
     removed: set[tuple[str, str]] | None = None,
+    keys: dict[str, str] | None = None,
 ) -> tuple[dict[str, list[str]], list[dict]]:
     """Normalise and filter the aliases of one topic.
 
@@ -127,8 +179,10 @@ def clean_aliases(
 
     Returns (aliases: lang -> sorted list, dropped: report entries).
     """
-    stop = {match_key(s) for s in rules.stop}
-    pref_keys = {lang: match_key(text) for lang, text in pref.items()}
+    keys = key_cache() if keys is None else keys
+    stop = _stop_keys(tuple(rules.stop))
+    lf = _filter(languages)
+    pref_keys = {lang: keys[text] for lang, text in pref.items()}
     kept: dict[str, dict[str, str]] = {}
     dropped = []
 
@@ -142,9 +196,7 @@ def clean_aliases(
         key = text.casefold()
         if not text:
             drop(lang, raw, "empty")
-        elif not _is_kept(lang, languages) or (
-            languages.kept is not None and lang and not lang_matches(lang, languages.kept)
-        ):
+        elif not lf.every and not lf.kept(lang):
             drop(lang, text, "language-not-kept")
         elif removed and ((lang, key) in removed or ("*", key) in removed):
             drop(lang, text, "removed-by-curation")
@@ -164,7 +216,9 @@ def clean_aliases(
 
 
 def resolve_ambiguity(
-    names: dict[str, tuple[dict[str, str], dict[str, list[str]]]], policy: str
+    names: dict[str, tuple[dict[str, str], dict[str, list[str]]]],
+    policy: str,
+    keys: dict[str, str] | None = None,
 ) -> tuple[list[dict], list[dict], set[tuple[str, str]]]:
     """Find match keys shared by several topics and apply the spec's ``policy``.
 
@@ -176,13 +230,14 @@ def resolve_ambiguity(
     Aliases are removed from ``names`` in place. Returns (ambiguous report,
     dropped aliases, (topic, key) pairs whose preferred rows leave the lexicon).
     """
+    keys = key_cache() if keys is None else keys
     owners: dict[str, set[str]] = {}
     for topic, (pref, aliases) in names.items():
         for text in pref.values():
-            owners.setdefault(match_key(text), set()).add(topic)
+            owners.setdefault(keys[text], set()).add(topic)
         for texts in aliases.values():
             for text in texts:
-                owners.setdefault(match_key(text), set()).add(topic)
+                owners.setdefault(keys[text], set()).add(topic)
     action = {"keep": "kept", "drop": "dropped", "preferred-only": "kept-as-preferred-only"}[policy]
     report, dropped, unlisted = [], [], set()
     shared = {k: sorted(t) for k, t in owners.items() if len(t) > 1}
@@ -193,9 +248,9 @@ def resolve_ambiguity(
         for topic in shared[key]:
             pref, aliases = names[topic]
             for lang in list(aliases):
-                keep = [a for a in aliases[lang] if match_key(a) != key]
+                keep = [a for a in aliases[lang] if keys[a] != key]
                 for a in aliases[lang]:
-                    if match_key(a) == key:
+                    if keys[a] == key:
                         dropped.append(
                             {"alias": a, "language": lang, "reason": "ambiguous", "topic": topic}
                         )
@@ -203,6 +258,6 @@ def resolve_ambiguity(
                     aliases[lang] = keep
                 else:
                     del aliases[lang]
-            if policy == "drop" and any(match_key(t) == key for t in pref.values()):
+            if policy == "drop" and any(keys[t] == key for t in pref.values()):
                 unlisted.add((topic, key))
     return report, dropped, unlisted

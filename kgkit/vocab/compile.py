@@ -9,8 +9,10 @@ reduce, depth); clean aliases and settle ambiguous match keys; write the files.
 
 from __future__ import annotations
 
+import contextlib
+import gc
 from collections import Counter
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -18,8 +20,8 @@ from kgkit.errors import KgkitError, SpecError
 from kgkit.vocab.aliases import (
     choose_labels,
     clean_aliases,
+    key_cache,
     lang_matches,
-    match_key,
     resolve_ambiguity,
 )
 from kgkit.vocab.curation import Edit, apply_curation, load_curation
@@ -104,27 +106,42 @@ def build_vocabulary(
     edits: list[Edit] = (),
     popularity: dict[str, float] | None = None,
     strict: bool = False,
+    progress: Callable[[str], None] | None = None,
 ) -> Build:
     """Compile in memory from already fetched data (no store needed)."""
+
+    def step(text: str) -> None:
+        if progress:
+            progress(text)
+
+    step("giving ids")
     ids, clashes = assign_ids(selected)
     topics: dict[str, Topic] = {}
+    f = fetched
     for src in selected:
-        t = Topic(id=ids[src], source=src)
-        t.graphs = set(fetched.graphs.get(src, ()))
-        t.labels = list(fetched.labels.get(src, ()))
-        t.aliases = list(fetched.aliases.get(src, ()))
-        t.notations = set(fetched.notations.get(src, ()))
-        t.same_as = set(fetched.same_as.get(src, ()))
-        topics[t.id] = t
+        tid = ids[src]
+        topics[tid] = Topic(
+            id=tid,
+            source=src,
+            graphs=set(f.graphs.get(src, ())),
+            labels=list(f.labels.get(src, ())),
+            aliases=list(f.aliases.get(src, ())),
+            notations=set(f.notations.get(src, ())),
+            same_as=set(f.same_as.get(src, ())),
+        )
 
     def node(iri: str) -> str:
         return ids.get(iri, iri)
 
-    graph_parents: dict[str, list[str]] = {
-        node(s): sorted({node(p) for p in ps}) for s, ps in fetched.parents.items()
-    }
+    get = ids.get
+    graph_parents: dict[str, list[str]] = {}
+    for s, ps in f.parents.items():
+        if len(ps) == 1:
+            graph_parents[get(s, s)] = [get(ps[0], ps[0])]
+        else:
+            graph_parents[get(s, s)] = sorted({get(p, p) for p in ps})
 
-    # curation overlay: after selection, before pruning
+    step("applying the curation")
     lang_rules = spec.languages
     curated = apply_curation(
         list(edits),
@@ -178,7 +195,7 @@ def build_vocabulary(
                 dropped[tid] = reason
         active -= set(dropped)
 
-    # preferred labels and required languages
+    step("choosing preferred labels")
     prefs: dict[str, tuple[dict, dict, list]] = {}
     missing_drop: dict[str, str] = {}
     for tid in sorted(active | set(curated.merged)):
@@ -195,7 +212,7 @@ def build_vocabulary(
         if not pref:
             t.flags.add("no-label")
 
-    # pruning, judged on one state of the hierarchy
+    step("pruning")
     rules = spec.prune
     h0 = (
         repair_hierarchy(graph_parents, active)
@@ -214,22 +231,26 @@ def build_vocabulary(
     dropped.update(pruned)
     active -= set(pruned)
 
+    step("repairing the hierarchy")
     h = repair_hierarchy(graph_parents, active)
 
-    # aliases
+    step("cleaning aliases")
+    keys = key_cache()
     names: dict[str, tuple[dict, dict]] = {}
     dropped_aliases: list[dict] = []
     for tid in sorted(active):
         t = topics[tid]
         pref, _borrowed, others = prefs[tid]
         raw = t.aliases + [(lg, x, "label") for lg, x in others]
-        aliases, gone = clean_aliases(tid, pref, raw, spec.aliases, lang_rules, t.alias_removals)
+        aliases, gone = clean_aliases(
+            tid, pref, raw, spec.aliases, lang_rules, t.alias_removals, keys
+        )
         names[tid] = (pref, aliases)
         dropped_aliases.extend(gone)
-    ambiguous, gone, unlisted = resolve_ambiguity(names, spec.aliases.ambiguous)
+    ambiguous, gone, unlisted = resolve_ambiguity(names, spec.aliases.ambiguous, keys)
     dropped_aliases.extend(gone)
 
-    # records
+    step("making records")
     records = []
     label_tags: dict[str, dict[str, str]] = {}
     for tid in sorted(active | set(curated.merged)):
@@ -243,29 +264,29 @@ def build_vocabulary(
                 "aliases": {} if deprecated else names[tid][1],
                 "curie": ws.compact(t.source) if t.source else None,
                 "depth": None if deprecated else h.depth[tid],
-                "flags": sorted(t.flags),
+                "flags": sorted(t.flags) if t.flags else [],
                 "graph": min(t.graphs) if t.graphs else None,
                 "id": tid,
                 "iri": spec.namespace + tid,
-                "labels": dict(sorted(pref.items())),
+                "labels": pref,  # writers sort keys themselves
                 "notation": min(t.notations) if t.notations else None,
                 "origin": t.origin,
                 "parents": [] if deprecated else h.parents[tid],
                 "replaced_by": curated.merged.get(tid),
-                "same_as": sorted(t.same_as),
+                "same_as": sorted(t.same_as) if t.same_as else [],
                 "source": t.source,
                 "status": "deprecated" if deprecated else "active",
             }
         )
 
-    # lexicon
+    step("making the lexicon")
     rows = []
     for r in records:
         if r["status"] != "active":
             continue
         tid = r["id"]
         for lang, text in r["labels"].items():
-            key = match_key(text)
+            key = keys[text]
             if (tid, key) in unlisted:
                 dropped_aliases.append(
                     {
@@ -279,7 +300,7 @@ def build_vocabulary(
             rows.append((key, tid, lang, "preferred", text))
         for lang, texts in r["aliases"].items():
             for text in texts:
-                rows.append((match_key(text), tid, lang, "alias", text))
+                rows.append((keys[text], tid, lang, "alias", text))
     rows = sorted(set(rows))
     sharing: dict[str, set[str]] = {}
     for key, tid, *_ in rows:
@@ -288,6 +309,7 @@ def build_vocabulary(
         (text, key, tid, lang, kind, len(sharing[key])) for key, tid, lang, kind, text in rows
     ]
 
+    step("making the report")
     dropped_topics = sorted(
         (
             {"id": tid, "reason": reason, "source": topics[tid].source}
@@ -339,6 +361,23 @@ def build_vocabulary(
     return Build(spec, records, lexicon, report, label_tags)
 
 
+@contextlib.contextmanager
+def _without_cyclic_gc() -> Iterator[None]:
+    """Pause the cyclic garbage collector while millions of small tuples are made.
+
+    With the fetched data alive, every collection walks all of it again: measured at
+    20k topics, making 20k small records took 0.12 s with the collector on and 0.02 s
+    without. The compile makes no reference cycles worth collecting meanwhile.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 def compile_vocabulary(
     ws: Workspace,
     spec_path: Path | str,
@@ -359,7 +398,7 @@ def compile_vocabulary(
 
     spec = load_spec(ws, spec_path)
     edits = load_curation(spec.curation) if spec.curation else []
-    with connect(ws) as backend:
+    with _without_cyclic_gc(), connect(ws) as backend:
         step("selecting topics")
         selected = select_topics(backend, spec, ws)
         step(f"fetching {len(selected)} topics")
@@ -372,10 +411,11 @@ def compile_vocabulary(
             progress=step,
         )
         popularity = run_popularity(backend, spec) if spec.prune.min_popularity else None
-    step("compiling")
-    build = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict)
-    step("writing")
-    files = build.files()
+    with _without_cyclic_gc():
+        build = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict, step)
+        step("rendering the files")
+        files = build.files()
+    step("writing the files")
     out = write_build(spec.build_dir, files)
     c = build.report["counts"]
     summary = {

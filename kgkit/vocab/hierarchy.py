@@ -117,19 +117,39 @@ def break_cycles(parents: dict[str, list[str]]) -> list[dict]:
         if node in parents[node]:
             parents[node] = [p for p in parents[node] if p != node]
             report.append({"broken_edge": [node, node], "members": [node]})
+    # peel off every topic whose ancestors are free of cycles (Kahn's algorithm): only
+    # what is left can lie on a cycle, and networkx looks at that part alone
+    children: dict[str, list[str]] = {}
+    pending = {}
+    for child, ps in parents.items():
+        pending[child] = len(ps)
+        for p in ps:
+            children.setdefault(p, []).append(child)
+    queue = [n for n, k in pending.items() if k == 0]
+    while queue:
+        n = queue.pop()
+        for c in children.get(n, ()):
+            pending[c] -= 1
+            if pending[c] == 0:
+                queue.append(c)
+    rest = sorted(n for n, k in pending.items() if k > 0)
+    if not rest:
+        return report
     g = nx.DiGraph()
-    for child in sorted(parents):
+    for child in rest:
         for p in parents[child]:
-            g.add_edge(child, p)
+            if pending.get(p, 0) > 0:
+                g.add_edge(child, p)
     components = sorted(
         (sorted(c) for c in nx.strongly_connected_components(g) if len(c) > 1),
         key=lambda c: c[0],
     )
     for comp in components:
         sub = nx.DiGraph()
+        members = set(comp)
         for child in comp:
             for p in parents[child]:
-                if p in comp:
+                if p in members:
                     sub.add_edge(child, p)
         while True:
             try:
@@ -167,22 +187,27 @@ def reduce_redundant(parents: dict[str, list[str]]) -> list[list[str]]:
     ([['c', 'a']], ['b'])
     """
     multi = [n for n, ps in parents.items() if len(ps) > 1]
-    if not multi:
-        return []
-    g = nx.DiGraph()
-    g.add_nodes_from(parents)
-    for child, ps in parents.items():
-        for p in ps:
-            g.add_edge(child, p)
     ancestors: dict[str, set[str]] = {}
+
+    def ancestors_of(q: str) -> set[str]:
+        if q not in ancestors:
+            seen: set[str] = set()
+            stack = list(parents.get(q, ()))
+            while stack:
+                a = stack.pop()
+                if a not in seen:
+                    seen.add(a)
+                    stack.extend(parents.get(a, ()))
+            ancestors[q] = seen
+        return ancestors[q]
+
     removed = []
     for node in sorted(multi):
         ps = parents[node]
         drop = set()
         for q in ps:
-            if q not in ancestors:
-                ancestors[q] = nx.descendants(g, q)  # edges point to parents
-            drop.update(p for p in ps if p != q and p in ancestors[q])
+            anc = ancestors_of(q)
+            drop.update(p for p in ps if p != q and p in anc)
         if drop:
             parents[node] = [p for p in ps if p not in drop]
             removed.extend([node, p] for p in sorted(drop))

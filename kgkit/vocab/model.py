@@ -9,9 +9,10 @@ from dataclasses import dataclass, field
 __all__ = ["Topic", "assign_ids", "local_id"]
 
 _BAD = re.compile(r"[^A-Za-z0-9._-]+")
+_GOOD = re.compile(r"[A-Za-z0-9_-][A-Za-z0-9._-]*[A-Za-z0-9_-]|[A-Za-z0-9_-]")
 
 
-@dataclass
+@dataclass(slots=True)
 class Topic:
     """One topic while a vocabulary is compiled."""
 
@@ -38,6 +39,9 @@ def local_id(iri: str) -> str:
     >>> local_id("http://example.org/x#Ol%C3%A9 Bay")
     'Ol-C3-A9-Bay'
     """
+    tail = iri.rstrip("/#").rsplit("/", 1)[-1]
+    if _GOOD.fullmatch(tail) and not tail.startswith("-") and not tail.endswith("-"):
+        return tail  # the common case, without the slower general path
     tail = re.split(r"[/#:]", iri.rstrip("/#"))[-1]
     tail = _BAD.sub("-", tail).strip("-.")
     return tail or "topic"

@@ -12,6 +12,7 @@ import os
 import re
 import shutil
 from collections.abc import Iterable
+from json.encoder import encode_basestring as _js
 from pathlib import Path
 
 __all__ = [
@@ -34,61 +35,53 @@ def jsonl_text(records: list[dict]) -> str:
 
 
 # characters PyYAML refuses inside a document, even quoted (YAML 1.1 printable set)
+# (and the line breaks NEL, LS, PS, which a quoted scalar would fold)
 _NON_PRINTABLE = re.compile(
-    "[^\x09\x0a\x0d\x20-\x7e\x85\xa0-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]"
+    "[^\x09\x0a\x0d\x20-\x7e\xa0-\u2027\u202a-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]"
 )
 
 
-def _yq(value) -> str:
-    """A YAML scalar: JSON's double-quoted form is also YAML's (with the escapes YAML knows)."""
+def _flow(value) -> str:
+    """A YAML flow value. JSON's double-quoted strings are YAML's too (same escapes)."""
+    kind = type(value)
+    if kind is str:
+        return _js(value)
+    if kind is list:
+        if all(type(v) is str for v in value):
+            return "[" + ", ".join(map(_js, value)) + "]"
+        return "[" + ", ".join(_flow(v) for v in value) + "]"
+    if kind is dict:
+        return "{" + ", ".join(f"{_js(str(k))}: {_flow(value[k])}" for k in sorted(value)) + "}"
     if value is None:
         return "null"
-    if isinstance(value, bool):
+    if kind is bool:
         return "true" if value else "false"
-    if isinstance(value, int):
+    if kind is int:
         return str(value)
-    text = json.dumps(str(value), ensure_ascii=False)
-    return _NON_PRINTABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
-
-
-def _yaml_value(value, indent: str) -> list[str]:
-    if isinstance(value, dict):
-        if not value:
-            return [" {}"]
-        out = [""]
-        for k in sorted(value):
-            v = value[k]
-            sub = _yaml_value(v, indent + "  ")
-            out.append(f"{indent}{_yq(k)}:{sub[0]}")
-            out.extend(sub[1:])
-        return out
-    if isinstance(value, list):
-        if not value:
-            return [" []"]
-        return [""] + [f"{indent}- {_yq(v)}" for v in value]
-    return [" " + _yq(value)]
+    return _js(str(value))
 
 
 def yaml_text(scheme: dict, records: list[dict]) -> str:
-    """The topic file for review: the scheme, then every topic, keys sorted."""
+    """The topic file for review: the scheme, then every topic, one key per line."""
     lines = ["# Compiled by kgkit; edit the spec or the curation file, not this file.", "scheme:"]
-    for k in sorted(scheme):
-        sub = _yaml_value(scheme[k], "    ")
-        lines.append(f"  {k}:{sub[0]}")
-        lines.extend(sub[1:])
+    lines.extend(f"  {k}: {_flow(scheme[k])}" for k in sorted(scheme))
     lines.append("topics:" if records else "topics: []")
     for r in records:
-        first = True
-        for k in sorted(r):
-            sub = _yaml_value(r[k], "      ")
-            lines.append(("  - " if first else "    ") + f"{k}:{sub[0]}")
-            lines.extend(sub[1:])
-            first = False
-    return "\n".join(lines) + "\n"
+        keys = sorted(r)
+        lines.append(f"  - {keys[0]}: {_flow(r[keys[0]])}")
+        lines.extend(f"    {k}: {_flow(r[k])}" for k in keys[1:])
+    text = "\n".join(lines) + "\n"
+    # only strings can hold such characters, and they are all double-quoted here
+    return _NON_PRINTABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
+
+
+_TURTLE_SPECIAL = re.compile(r'[\\"\x00-\x1f\x7f]')
 
 
 def _tq(text: str) -> str:
     """A Turtle string literal (W3C RDF 1.1 Turtle, ECHAR and UCHAR escapes)."""
+    if not _TURTLE_SPECIAL.search(text):
+        return '"' + text + '"'
     out = (
         text.replace("\\", "\\\\")
         .replace('"', '\\"')
