@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import csv
 import json
+import re
 import unicodedata
 from collections.abc import Iterable
 from dataclasses import dataclass, field
@@ -117,8 +118,39 @@ def normalise_with_offsets(text: str) -> tuple[str, list[tuple[int, int]]]:
     marks so that every output character can be traced back. Leading and
     trailing whitespace is kept as one space, so offsets stay aligned.
     """
-    out: list[str] = []
-    spans: list[tuple[int, int]] = []
+    norm, starts, ends = _normalise(text)
+    return norm, list(zip(starts, ends, strict=True))
+
+
+_SPACE_RUNS = re.compile(r"(\s+)")
+
+
+def _normalise(text: str) -> tuple[str, list[int], list[int]]:
+    """:func:`normalise_with_offsets` with the spans as two lists (start, end)."""
+    if unicodedata.is_normalized("NFKC", text):
+        folded = text.casefold()
+        # case folding never shortens a character, so equal lengths mean one for one;
+        # then only runs of white space change length (re's \s is str.isspace)
+        if len(folded) == len(text):
+            out: list[str] = []
+            starts: list[int] = []
+            ends: list[int] = []
+            pos = 0
+            for piece in _SPACE_RUNS.split(folded):
+                if not piece:
+                    continue
+                if piece[0].isspace():
+                    out.append(" ")
+                    starts.append(pos)
+                    ends.append(pos + len(piece))
+                else:
+                    out.append(piece)
+                    starts.extend(range(pos, pos + len(piece)))
+                    ends.extend(range(pos + 1, pos + len(piece) + 1))
+                pos += len(piece)
+            return "".join(out), starts, ends
+    chars: list[str] = []
+    starts, ends = [], []
     i, n = 0, len(text)
     while i < n:
         j = i + 1
@@ -127,14 +159,15 @@ def normalise_with_offsets(text: str) -> tuple[str, list[tuple[int, int]]]:
         piece = unicodedata.normalize("NFKC", text[i:j]).casefold()
         for ch in piece:
             if ch.isspace():
-                if out and out[-1] == " ":
-                    spans[-1] = (spans[-1][0], j)
+                if chars and chars[-1] == " ":
+                    ends[-1] = j
                     continue
                 ch = " "
-            out.append(ch)
-            spans.append((i, j))
+            chars.append(ch)
+            starts.append(i)
+            ends.append(j)
         i = j
-    return "".join(out), spans
+    return "".join(chars), starts, ends
 
 
 class Lexicon:
@@ -147,6 +180,7 @@ class Lexicon:
         for row in rows:
             self.by_key.setdefault(row["match_key"], []).append(row)
         self.keys = sorted(self.by_key)
+        self._candidates: dict[str, tuple[Candidate, ...]] = {}
         self._automaton = (
             ahocorasick_rs.AhoCorasick(self.keys, matchkind=ahocorasick_rs.MATCHKIND_STANDARD)
             if self.keys
@@ -163,6 +197,12 @@ class Lexicon:
         return topic
 
     def candidates(self, key: str) -> tuple[Candidate, ...]:
+        """The topics a key may mean (computed once per key)."""
+        if key not in self._candidates:
+            self._candidates[key] = self._make_candidates(key)
+        return self._candidates[key]
+
+    def _make_candidates(self, key: str) -> tuple[Candidate, ...]:
         rows = self.by_key[key]
         out = []
         for topic in sorted({r["topic"] for r in rows}):
@@ -187,7 +227,7 @@ class Lexicon:
         """Every leftmost-longest, non-overlapping, word-bounded hit in ``text``."""
         if self._automaton is None or not text:
             return []
-        norm, spans = normalise_with_offsets(text)
+        norm, starts, ends = _normalise(text)
         found = []
         for index, s, e in self._automaton.find_matches_as_indexes(norm, overlapping=True):
             if s > 0 and _is_word(norm[s - 1]) and _is_word(norm[s]):
@@ -203,7 +243,7 @@ class Lexicon:
             if s < last_end:
                 continue
             last_end = e
-            start, end = spans[s][0], spans[e - 1][1]
+            start, end = starts[s], ends[e - 1]
             key = self.keys[index]
             hits.append(Hit(start, end, text[start:end], key, self.candidates(key)))
         return hits

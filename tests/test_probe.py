@@ -201,3 +201,13 @@ def test_cli_probe_corpus_writes_curation(runner, tmp_path):
     assert "  netting        2   66.7%  crop-netting, net-mending  TOO COMMON" in res.output
     assert res.output.endswith(f"2 remove_alias edits written to {out}\n")
     assert out.read_text(encoding="utf-8").count("remove_alias") == 2
+
+
+def test_plain_text_takes_the_short_path_with_the_same_offsets():
+    # NFKC-normalised text whose case folding keeps every length goes the fast way
+    norm, sp = normalise_with_offsets("Kayak \t Polo")
+    assert norm == "kayak polo"
+    assert sp[4:7] == [(4, 5), (5, 8), (8, 9)]
+    text = "Gig rowing at Vellmouth,  then KAYAK  polo.\n"
+    hits = probe_text(load_lexicon(LEX), text)
+    assert [(h.start, h.end, h.text) for h in hits] == [(31, 42, "KAYAK  polo")]
