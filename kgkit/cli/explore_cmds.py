@@ -249,7 +249,14 @@ def tree_command(ctx, term, depth, max_children, graphs):
 
 
 @click.command("shell")
-@click.option("--format", "fmt", type=click.Choice(list(FORMATS)), default="table")
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(list(FORMATS)),
+    default="table",
+    show_default=True,
+    help="Output format to start with (':format NAME' switches it).",
+)
 @_graph_option
 @click.pass_context
 def shell_command(ctx, fmt, graphs):
