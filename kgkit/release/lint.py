@@ -173,21 +173,34 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     >>> sorted(lint_graph(g).fired())
     ['hierarchy-loop', 'no-preferred-label', 'unlinked-concept']
     """
-    concepts: set = set(g.subjects(RDF.type, SKOS.Concept))
-    for p in (SKOS.broader, SKOS.narrower, SKOS.related):
-        for s, o in g.subject_objects(p):
-            concepts.update((s, o))
-    concepts.update(g.subjects(SKOS.topConceptOf, None))
-    concepts.update(g.objects(None, SKOS.hasTopConcept))
+
+    # one pass per predicate, then plain Python: rdflib look-ups per node are slow
+    def pairs(p):
+        return list(g.subject_objects(p))
+
+    broader, narrower, related = pairs(SKOS.broader), pairs(SKOS.narrower), pairs(SKOS.related)
+    kinds = {"preferred": SKOS.prefLabel, "alternative": SKOS.altLabel, "hidden": SKOS.hiddenLabel}
+    labels_of: dict = defaultdict(lambda: {k: [] for k in kinds})
+    for kind, p in kinds.items():
+        for s_, o in pairs(p):
+            labels_of[s_][kind].append(o)
+    typed = defaultdict(set)
+    for s_, o in pairs(RDF.type):
+        typed[o].add(s_)
+    top_of, has_top = pairs(SKOS.topConceptOf), pairs(SKOS.hasTopConcept)
+
+    concepts: set = set(typed[SKOS.Concept])
+    for rel in (broader, narrower, related):
+        for s_, o in rel:
+            concepts.update((s_, o))
+    concepts.update(c for c, _ in top_of)
+    concepts.update(c for _, c in has_top)
     # anything carrying a SKOS label is a concept unless typed as a scheme or collection
-    others = set(g.subjects(RDF.type, SKOS.ConceptScheme)) | set(
-        g.subjects(RDF.type, SKOS.Collection)
-    )
-    for p in (SKOS.prefLabel, SKOS.altLabel, SKOS.hiddenLabel):
-        concepts.update(s for s in g.subjects(p, None) if s not in others)
+    others = typed[SKOS.ConceptScheme] | typed[SKOS.Collection]
+    concepts.update(s_ for s_ in labels_of if s_ not in others)
     concepts = {c for c in concepts if not isinstance(c, rdflib.Literal)}
-    deprecated = {c for c in concepts if (c, OWL.deprecated, rdflib.Literal(True)) in g} | {
-        c for c in concepts if str(g.value(c, OWL.deprecated) or "").lower() == "true"
+    deprecated = {
+        s_ for s_, o in pairs(OWL.deprecated) if str(o).lower() == "true" and s_ in concepts
     }
     live = concepts - deprecated
     out: list[Finding] = []
@@ -195,20 +208,17 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     # hierarchy: child -> parent edges from broader and from narrower
     tree = nx.DiGraph()
     tree.add_nodes_from(concepts)
-    for c, p in g.subject_objects(SKOS.broader):
-        tree.add_edge(c, p)
-    for p, c in g.subject_objects(SKOS.narrower):
-        tree.add_edge(c, p)
+    tree.add_edges_from(broader)
+    tree.add_edges_from((c, p) for p, c in narrower)
     for comp in nx.strongly_connected_components(tree):
         if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
             names = ", ".join(sorted(str(n) for n in comp))
             out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
 
     # labels
-    kinds = {"preferred": SKOS.prefLabel, "alternative": SKOS.altLabel, "hidden": SKOS.hiddenLabel}
     shared: dict[tuple[str, str], set] = defaultdict(set)
     for c in sorted(concepts, key=str):
-        labels = {k: list(g.objects(c, p)) for k, p in kinds.items()}
+        labels = labels_of[c] if c in labels_of else {k: [] for k in kinds}
         if not labels["preferred"]:
             out.append(_finding("no-preferred-label", [c], f"{c} has no preferred label"))
         by_lang = defaultdict(set)
@@ -232,7 +242,11 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                 if not text.strip():
                     out.append(_finding("blank-label", [c], f"{c} has an empty {kind} label"))
                     continue
-                bad = sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+                bad = (
+                    []  # str.isprintable() is False for every character we flag
+                    if text.isprintable()
+                    else sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+                )
                 if bad:
                     out.append(
                         _finding(
@@ -265,10 +279,13 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
             )
 
     # language coverage: languages of the preferred labels of live concepts
-    langs_of = {c: {_lang(lit) for lit in g.objects(c, SKOS.prefLabel)} - {""} for c in live}
+    def prefs(c):
+        return labels_of[c]["preferred"] if c in labels_of else []
+
+    langs_of = {c: {_lang(lit) for lit in prefs(c)} - {""} for c in live}
     used = set().union(*langs_of.values()) if langs_of else set()
     for c in sorted(live, key=str):
-        if not langs_of[c] and not list(g.objects(c, SKOS.prefLabel)):
+        if not prefs(c):
             continue  # reported as no-preferred-label
         missing = sorted(used - langs_of[c])
         if missing:
@@ -283,10 +300,8 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     # structure among live concepts: orphans and separate groups
     links = nx.Graph()
     links.add_nodes_from(live)
-    for p in (SKOS.broader, SKOS.narrower, SKOS.related):
-        for s, o in g.subject_objects(p):
-            if s in live and o in live and s != o:
-                links.add_edge(s, o)
+    for rel in (broader, narrower, related):
+        links.add_edges_from((a, b) for a, b in rel if a in live and b in live and a != b)
     for c in sorted(live, key=str):
         if links.degree(c) == 0:
             out.append(
@@ -305,27 +320,27 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
         )
 
     # concept schemes and their top concepts
-    schemes = set(g.subjects(RDF.type, SKOS.ConceptScheme))
-    schemes |= set(g.objects(None, SKOS.inScheme)) | set(g.objects(None, SKOS.topConceptOf))
+    schemes = set(typed[SKOS.ConceptScheme]) | {o for _, o in pairs(SKOS.inScheme)}
+    schemes |= {sc for _, sc in top_of}
     tops = defaultdict(set)
-    for s, c in g.subject_objects(SKOS.hasTopConcept):
-        tops[s].add(c)
-    for c, s in g.subject_objects(SKOS.topConceptOf):
-        tops[s].add(c)
-    for s in sorted(schemes, key=str):
-        if not tops[s]:
+    for sc, c in has_top:
+        tops[sc].add(c)
+    for c, sc in top_of:
+        tops[sc].add(c)
+    for sc in sorted(schemes, key=str):
+        if not tops[sc]:
             out.append(
-                _finding("scheme-without-top", [s], f"concept scheme {s} names no top concept")
+                _finding("scheme-without-top", [sc], f"concept scheme {sc} names no top concept")
             )
-    for s in sorted(tops, key=str):
-        for c in sorted(tops[s], key=str):
+    for sc in sorted(tops, key=str):
+        for c in sorted(tops[sc], key=str):
             parents = sorted(str(p) for p in tree.successors(c)) if c in tree else []
             if c in live and parents:
                 out.append(
                     _finding(
                         "top-concept-with-parent",
                         [c],
-                        f"top concept {c} of {s} has broader {', '.join(parents)}",
+                        f"top concept {c} of {sc} has broader {', '.join(parents)}",
                     )
                 )
 
