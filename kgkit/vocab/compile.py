@@ -251,6 +251,15 @@ def build_vocabulary(
     dropped_aliases.extend(gone)
 
     step("making records")
+    replaced_by = {}
+    for tid in curated.merged:
+        target, seen = curated.merged[tid], {tid}
+        while target in curated.merged and target not in seen:  # merged into a merged topic
+            seen.add(target)
+            target = curated.merged[target]
+        replaced_by[tid] = target
+        if target not in active:
+            topics[tid].flags.add("replacement-dropped")
     records = []
     label_tags: dict[str, dict[str, str]] = {}
     for tid in sorted(active | set(curated.merged)):
@@ -272,7 +281,7 @@ def build_vocabulary(
                 "notation": min(t.notations) if t.notations else None,
                 "origin": t.origin,
                 "parents": [] if deprecated else h.parents[tid],
-                "replaced_by": curated.merged.get(tid),
+                "replaced_by": replaced_by.get(tid),
                 "same_as": sorted(t.same_as) if t.same_as else [],
                 "source": t.source,
                 "status": "deprecated" if deprecated else "active",
