@@ -109,6 +109,11 @@ def _explore(ws) -> DemoStep:
             f"children of tw:crafts: {len(kids)}; the largest: "
             + ", ".join(f"{label} ({-n})" for n, label in kids[:3])
         )
+        from kgkit.entities import find_entities, format_matches
+
+        matches = [m for m in find_entities(backend, "netting") if m.kind == "alias"]
+        step.lines.append("two topics share the alias 'netting'; their parents tell them apart:")
+        step.lines += ["  " + x for x in format_matches(matches).splitlines()]
         res = run_query(
             backend,
             "SELECT ?topic (COUNT(?clip) AS ?clips) WHERE { ?clip <"
