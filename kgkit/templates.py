@@ -260,7 +260,7 @@ def _sources(ws: Workspace | None) -> dict[str, tuple[str, str, bool]]:
     out: dict[str, tuple[str, str, bool]] = {}
     for entry in sorted(_builtin_dir().iterdir(), key=lambda e: e.name):
         if entry.name.endswith(".rq"):
-            out[entry.name[:-3]] = (f"kgkit/queries/{entry.name}", entry.read_text("utf-8"), True)
+            out[entry.name[:-3]] = (str(entry), entry.read_text("utf-8"), True)
     if ws is not None and ws.queries_dir.is_dir():
         for path in sorted(ws.queries_dir.glob("*.rq")):
             try:
