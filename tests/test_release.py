@@ -393,3 +393,29 @@ def test_verify_reports_missing_unlisted_and_edited_manifest(workspace):
         ("../kgkit.yaml", "not a plain file name"),
         ("manifest.json", "content_sha256 does not match its list of files"),
     }
+
+
+def test_id_change_from_a_new_clash_is_major(workspace):
+    """A second entity with the same local name gives both a hash suffix: the old id
+    stays as a deprecated pointer to the new one and the diff calls it an id change."""
+    spec = setup(workspace, dump(TOPICS_1))
+    make_release(workspace, spec)
+    other = "http://example.org/desk/harbour-swim"
+    extra = [
+        f'<{other}> <{PREF}> "harbour swim (desk)"@en .',
+        f'<{other}> <{PREF}> "Hafenschwimmen (Redaktion)"@de .',
+        f"<{other}> <{BROADER}> <{G}sport> .",
+    ]
+    setup(workspace, dump(TOPICS_1, extra), "dump-2.nt")
+    r = make_release(workspace, spec)
+    t = topics_of(r.path)
+    [new_id] = [
+        i for i, x in t.items() if x["source"] == G + "harbour-swim" and i != "harbour-swim"
+    ]
+    assert new_id.startswith("harbour-swim-") and len(new_id) == len("harbour-swim-") + 8
+    assert t["harbour-swim"]["status"] == "deprecated"
+    assert t["harbour-swim"]["replaced_by"] == new_id
+    assert r.version == "2.0.0"
+    kinds = [(c.kind, c.ids) for c in r.diff.changes]
+    assert ("id-changed", ("harbour-swim", new_id)) in kinds
+    assert [k for k, _ in kinds] == ["id-changed", "added"]

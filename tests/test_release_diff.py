@@ -104,6 +104,15 @@ def test_removed_deprecated_or_renamed_is_major():
     assert d.changes[1].ids == ("canoe-polo", "paddle-sports")
     assert d.changes[2].before == "sport" and d.changes[2].after == "sport-1a2b3c4d"
     assert next_version(Version(1, 2, 3), d.kinds()) == (Version(2, 0, 0), "major")
+    # as a release records it: the old id kept as a deprecated pointer to the new one
+    new["sport"] = dict(base()["sport"], status="deprecated", replaced_by="sport-1a2b3c4d")
+    new["sport-1a2b3c4d"]["labels"] = {"en": "sports"}
+    assert kinds(diff_topics(base(), new)) == [
+        ("removed", "sailing"),
+        ("deprecated", "canoe-polo"),
+        ("id-changed", "sport-1a2b3c4d"),
+        ("relabelled", "sport-1a2b3c4d"),
+    ]
 
 
 def test_deprecated_topic_changes_only_its_replacement():

@@ -350,6 +350,18 @@ def diff_topics(
         s = old[i].get("source")
         if s and len(by_source_new.get(s, [])) == 1:
             renamed[i] = by_source_new[s][0]
+    # ... also when a release keeps the old id as a deprecated pointer to the new one
+    for i in sorted(set(old) & set(new)):
+        rep = new[i].get("replaced_by")
+        s = old[i].get("source")
+        if (
+            active(old[i])
+            and not active(new[i])
+            and rep in fresh
+            and s
+            and new[rep].get("source") == s
+        ):
+            renamed[i] = rep
     for o, n in sorted(renamed.items()):
         cause = cause_for(new[n])
         changes.append(Change("id-changed", n, (o, n), cause("id-changed", [o, n]), None, o, n))
@@ -371,7 +383,8 @@ def diff_topics(
         cause = cause_for(t)
         changes.append(Change("added", i, (i,), cause("added", [i]), None, None, _label(t)))
 
-    pairs = [(i, i) for i in sorted(set(old) & set(new))] + sorted(renamed.items())
+    pairs = [(i, i) for i in sorted(set(old) & set(new)) if i not in renamed]
+    pairs += sorted(renamed.items())
     for oi, ni in pairs:
         a, b = old[oi], new[ni]
         cause = cause_for(b)

@@ -13,7 +13,8 @@ merged it into (the compile already marks those), an active topic whose source t
 old topic's recorded ``same_as`` links name or whose own ``same_as`` names the old
 source, then the graph itself: entities linked to the old source by the profile's
 ``same_as`` predicates, in either direction and over several steps, that are
-sources of active topics. Several candidates: the lowest id. A topic already
+sources of active topics. Several candidates: the lowest id. When the same source
+entity simply has a new id (a clash suffix came or went), that topic replaces it. A topic already
 deprecated in the previous release is carried over, its replacement followed to
 an active topic when that one was deprecated in turn.
 """
@@ -117,6 +118,9 @@ def find_replacements(
     needs_graph = []
     out: dict[str, tuple[str | None, str | None]] = {}
     for tid, t in sorted(gone.items()):
+        if t.get("source") in by_source:  # the same entity under a new id
+            out[tid] = (by_source[t["source"]], "same-source")
+            continue
         cands = {by_source[s] for s in t.get("same_as") or [] if s in by_source}
         cands |= linked_back.get(t.get("source") or "", set())
         if cands:
