@@ -258,3 +258,59 @@ def test_shell_lists_prefixes_and_templates(kg):
     assert ":format NAME" in r.output
     r = kg("shell", input="SELECT * WHERE {\n")
     assert r.output.endswith("(unfinished statement dropped: end it with ;)\n")
+
+
+def test_shell_on_a_pseudo_terminal_keeps_history(ws):
+    """The interactive path (readline, a real terminal) of `kgkit shell`."""
+    import os
+    import pty
+    import select
+    import subprocess
+    import sys
+    import time
+    from pathlib import Path
+
+    exe = Path(sys.executable).with_name("kgkit")
+    if not exe.exists():
+        pytest.skip("no kgkit console script next to the interpreter")
+    history = ws.root / ".kgkit" / "shell-history"
+    history.write_text(":graphs\n", encoding="utf-8")
+    master, slave = pty.openpty()
+    proc = subprocess.Popen(
+        [str(exe), "--workspace", str(ws.root), "shell"],
+        stdin=slave,
+        stdout=slave,
+        stderr=slave,
+        env={**os.environ, "COLUMNS": "100", "TERM": "dumb"},
+    )
+    os.close(slave)
+    out = b""
+
+    def read_until(marker: bytes, timeout: float = 30) -> None:
+        nonlocal out
+        end = time.monotonic() + timeout
+        while marker not in out and time.monotonic() < end:
+            r, _, _ = select.select([master], [], [], 0.2)
+            if r:
+                try:
+                    out += os.read(master, 4096)
+                except OSError:
+                    return
+
+    try:
+        read_until(b"kgkit> ")
+        os.write(master, b"ASK { t:rowing ?p ?o } ;\n")
+        read_until(b"true")
+        os.write(master, b":quit\n")
+        proc.wait(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        os.close(master)
+    assert b"end queries with ;" in out
+    assert b"true" in out
+    assert history.read_text(encoding="utf-8").splitlines() == [
+        ":graphs",
+        "ASK { t:rowing ?p ?o } ;",
+        ":quit",
+    ]
