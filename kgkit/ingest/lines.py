@@ -115,6 +115,29 @@ def _lone_cause(line: bytes, err: SyntaxError) -> str:
     return "statement ends too early"
 
 
+# a line that is not a statement starts with white space or '#', or is empty
+_MAYBE_NOT_STATEMENT = re.compile(rb"\n[ \t\r\n#]")
+
+
+def count_statements(data: bytes) -> int:
+    """Number of lines of ``data`` that are neither empty, white space nor a comment.
+
+    >>> count_statements(b"<a> <b> <c> .\\n# note\\n\\n  <a> <b> <d> .\\n")
+    2
+    """
+    if not data:
+        return 0
+    n = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
+    starts = [m.start() + 1 for m in _MAYBE_NOT_STATEMENT.finditer(data)]
+    if data[:1] in (b" ", b"\t", b"\r", b"\n", b"#"):
+        starts.insert(0, 0)
+    for at in starts:
+        end = data.find(b"\n", at)
+        if not is_statement(data[at : end if end >= 0 else len(data)]):
+            n -= 1
+    return n
+
+
 def split_lines(data: bytes) -> list[bytes]:
     """Lines of ``data``, each with its ``\\n`` (the last one may have none)."""
     lines = data.split(b"\n")
@@ -162,10 +185,6 @@ def _triple_text(q) -> str:
     return f"{q.subject} {q.predicate} {q.object} .\n"
 
 
-def _has_blank(q) -> bool:
-    return isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode)
-
-
 def process_chunk(
     spec: ChunkSpec,
     first: int,
@@ -185,34 +204,46 @@ def process_chunk(
     fmt = RDF_FORMATS[spec.format]
     sl = spec.slice
     if spec.raw_ok and spec.format == "nt" and sl.is_everything and b"_:" not in data:
-        res.read = sum(1 for x in split_lines(data) if is_statement(x))
+        res.read = count_statements(data)
         res.raw = data
         return res
-    lines = split_lines(data)
     kept_text: list[str] = []
     blank: list = []
+    keeps = None if sl.is_everything else sl.keeps
+
+    def take(quads) -> None:
+        res.read += len(quads)
+        for q in quads:
+            if keeps is not None and not keeps(q):
+                res.filtered += 1
+            elif isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode):
+                blank.append(q)
+            else:
+                kept_text.append(f"{q.subject} {q.predicate} {q.object} .\n")
+
+    try:
+        quads = list(ox.parse(input=data, format=fmt))
+        lines = None  # the whole chunk parsed: no need to look at its lines
+    except SyntaxError:
+        lines = split_lines(data)
+    if lines is None:
+        take(quads)
+        lines = []
     pos, window = 0, len(lines)
     while pos < len(lines):
-        seg = lines[pos : pos + window] if pos else lines
-        quads: list = []
+        seg = lines[pos : pos + window]
+        quads = []
         bad = None
         try:
-            for q in ox.parse(input=data if seg is lines else b"".join(seg), format=fmt):
+            for q in ox.parse(input=b"".join(seg), format=fmt):
                 quads.append(q)
         except SyntaxError as exc:
             bad = locate(seg, exc, fmt)
-        upto = len(seg) if bad is None else bad[0]
-        n_stmt = sum(1 for x in seg[:upto] if is_statement(x))
-        if len(quads) != n_stmt:
-            quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
-        res.read += len(quads)
-        for q in quads:
-            if not sl.keeps(q):
-                res.filtered += 1
-            elif _has_blank(q):
-                blank.append(q)
-            else:
-                kept_text.append(_triple_text(q))
+        if bad is not None:
+            upto = bad[0]
+            if len(quads) != sum(1 for x in seg[:upto] if is_statement(x)):
+                quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
+        take(quads)
         if bad is None:
             pos += len(seg)
             continue

@@ -50,9 +50,17 @@ class Slice:
             obj = quad.object
             if isinstance(obj, ox.Literal):
                 lang = obj.language
-                if lang and not language_matches(lang, self.languages):
+                if lang and not self._language_kept(lang):
                     return False
         return True
+
+    def _language_kept(self, tag: str) -> bool:
+        # tags repeat: remember the answer (a few hundred tags at most in a real dump)
+        cache = self.__dict__.setdefault("_tags", {})
+        kept = cache.get(tag)
+        if kept is None:
+            kept = cache[tag] = language_matches(tag, self.languages)
+        return kept
 
     def describe(self) -> str:
         parts = []
