@@ -495,12 +495,14 @@ def _load_source(
     else:
         chunks = iter_line_chunks(source.stream, opts.batch_size, tick)
     pending = _Pending(run, source.label, background=parallel)
+    results = process_chunks(spec, chunks, opts.jobs if parallel else 1)
     try:
-        for res in process_chunks(spec, chunks, opts.jobs if parallel else 1):
+        for res in results:
             pending.add(res)
             tick()
         pending.flush()
     finally:
+        results.close()  # on failure: stop the workers now, not when garbage is collected
         pending.abandon()
     tick()
 

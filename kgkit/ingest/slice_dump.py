@@ -109,12 +109,14 @@ def _parent_edges(
             fmt, Slice(predicates=parents), ws if fmt == "records" else None, raw_ok=False
         )
         source, chunks = _chunks(label)
+        results = process_chunks(spec, chunks, jobs)
         try:
-            for res in process_chunks(spec, chunks, jobs):
+            for res in results:
                 for t in ox.parse(input=res.text, format=ox.RdfFormat.N_TRIPLES):
                     if isinstance(t.object, ox.NamedNode):
                         edges[t.object.value].add(t.subject.value)
         finally:
+            results.close()
             source.close()
     return edges
 
@@ -176,8 +178,9 @@ def slice_dump(
             spec = ChunkSpec(fmt, slice, ws if fmt == "records" else None, raw_ok=False)
             source, chunks = _chunks(label)
             scope = f"f{n}x"
+            results = process_chunks(spec, chunks, jobs)
             try:
-                for res in process_chunks(spec, chunks, jobs):
+                for res in results:
                     for line, col, cause, text in res.rejects:
                         if on_error != "skip":
                             hint = "; run with --on-error skip to set bad statements aside"
@@ -193,6 +196,7 @@ def slice_dump(
                     if progress:
                         progress(Progress(label, source.bytes_read, source.size, summary.read))
             finally:
+                results.close()
                 source.close()
         summary.read += summary.rejected
         if out is not raw:
