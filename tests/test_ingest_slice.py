@@ -140,3 +140,19 @@ def test_cli_slice_json(kgkit, tmp_path):
     assert r.output.startswith(f"Error: {MESSY}:8:73: ")
     r = kgkit("slice", str(DATA / "nothing.ttl"), "-o", str(tmp_path / "u.nt"))
     assert r.exit_code == 1 and "line-based formats" in r.output
+
+
+def test_slice_output_keeps_input_order_whatever_the_chunks(tmp_path, workspace, monkeypatch):
+    sl = make_slice(workspace, keep="all")
+    outs = []
+    for size in (120, 1 << 20):
+        monkeypatch.setattr(lines, "CHUNK_BYTES", size)
+        out = tmp_path / f"{size}.nt"
+        slice_dump(workspace, [str(MESSY)], out, sl, on_error="skip")
+        outs.append(out.read_text(encoding="utf-8"))
+    assert outs[0] == outs[1]
+    # the good lines of the messy dump, in their order, blank nodes relabelled per file
+    got = outs[0].splitlines()
+    assert len(got) == 14
+    assert got[0].endswith('"canoe polo"@en .') and got[3] == got[0]
+    assert got[6].startswith("_:f1xn1 ") and got[-1].endswith(f"<{E}2> .")

@@ -157,6 +157,9 @@ class ChunkSpec:
     workspace: Workspace | None = None  # entity records map fields through its profile
     #: hand N-Triples with nothing to slice back unparsed, for the store to parse
     raw_ok: bool = True
+    #: when set, blank-node statements go into ``text`` too, in line order, their labels
+    #: prefixed with this (``kgkit slice``: the output then does not depend on chunking)
+    blank_scope: str | None = None
 
 
 @dataclass
@@ -210,6 +213,10 @@ def process_chunk(
     kept_text: list[str] = []
     blank: list = []
     keeps = None if sl.is_everything else sl.keeps
+    scope = spec.blank_scope
+
+    def scoped(t):
+        return ox.BlankNode(scope + t.value) if isinstance(t, ox.BlankNode) else t
 
     def take(quads) -> None:
         res.read += len(quads)
@@ -217,7 +224,10 @@ def process_chunk(
             if keeps is not None and not keeps(q):
                 res.filtered += 1
             elif isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode):
-                blank.append(q)
+                if scope is None:
+                    blank.append(q)
+                else:
+                    kept_text.append(f"{scoped(q.subject)} {q.predicate} {scoped(q.object)} .\n")
             else:
                 kept_text.append(f"{q.subject} {q.predicate} {q.object} .\n")
 

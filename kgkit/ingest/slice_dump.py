@@ -8,9 +8,8 @@ the parent edges, pass 2 writes the statements about the entities found.
 
 Parsing and slicing are the import's own (:func:`kgkit.ingest.lines.process_chunk`), in
 worker processes with ``jobs`` > 1, so a slice keeps exactly what ``kgkit import`` with the
-same options would load. Statements are written as N-Triples in input order, chunk by chunk
-(within a chunk, statements with blank nodes come after the others), the same bytes for
-any number of workers; graph names of N-Quads are dropped, as an import folds them;
+same options would load. Statements are written as N-Triples in input order, the same bytes
+for any number of workers; graph names of N-Quads are dropped, as an import folds them;
 duplicates are kept; blank node labels are prefixed per input file so that files do not
 share blank nodes. The output is written
 to a temporary file and renamed into place: a failed slice leaves no partial output.
@@ -83,20 +82,6 @@ def _chunks(label: str):
     source = open_source(label)
     # chunks of whole lines, the same whatever the number of workers
     return source, iter_byte_chunks(source.stream, _lines.CHUNK_BYTES)
-
-
-def _scoped(res, scope: str) -> bytes:
-    """The chunk's blank-node statements as N-Triples, labels prefixed with ``scope``."""
-    quads = (
-        res.quads if res.quads else ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES)
-    )
-
-    def term(t):
-        return ox.BlankNode(scope + t.value) if isinstance(t, ox.BlankNode) else t
-
-    return "".join(f"{term(q.subject)} {q.predicate} {term(q.object)} .\n" for q in quads).encode(
-        "utf-8"
-    )
 
 
 def _parent_edges(
@@ -175,9 +160,14 @@ def slice_dump(
     out = gzip.GzipFile(fileobj=raw, mode="wb", mtime=0) if output.suffix == ".gz" else raw
     try:
         for n, (label, fmt) in enumerate(pairs, 1):
-            spec = ChunkSpec(fmt, slice, ws if fmt == "records" else None, raw_ok=False)
+            spec = ChunkSpec(
+                fmt,
+                slice,
+                ws if fmt == "records" else None,
+                raw_ok=False,
+                blank_scope=f"f{n}x",
+            )
             source, chunks = _chunks(label)
-            scope = f"f{n}x"
             results = process_chunks(spec, chunks, jobs)
             try:
                 for res in results:
@@ -191,8 +181,6 @@ def slice_dump(
                     summary.filtered += res.filtered
                     summary.written += res.kept
                     out.write(res.text)
-                    if res.quads or res.blank_text:
-                        out.write(_scoped(res, scope))
                     if progress:
                         progress(Progress(label, source.bytes_read, source.size, summary.read))
             finally:
