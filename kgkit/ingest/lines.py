@@ -306,9 +306,10 @@ def iter_line_chunks(
     for n, line in enumerate(stream, 1):
         lines.append(line)
         if len(lines) >= lines_per_chunk:
-            yield first, b"".join(lines)
+            data, start = b"".join(lines), first
             first += len(lines)
-            lines = []
+            lines = []  # let the line objects go before the chunk is processed
+            yield start, data
         if tick and n % step == 0:
             tick()
     if lines:
