@@ -53,7 +53,7 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
         f"released sport 2.0.0 (after 1.0.0, major) in {home / '2.0.0'}",
         "  deprecated 1, added 2, moved 1, relabelled 1",
         "  deprecated dragon-boat -> dragon-boat-racing",
-        "  1 stale curation edits (see changelog.md)",
+        "  1 stale curation edit (see changelog.md)",
     ]
     d = kgkit("diff", str(home / "1.0.0"), str(home / "2.0.0"))
     assert d.exit_code == 0

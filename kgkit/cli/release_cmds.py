@@ -51,7 +51,8 @@ def release_command(
     for d in res.deprecated:
         click.echo(f"  deprecated {d['id']} -> {d['replaced_by'] or '(no replacement)'}")
     if res.stale:
-        click.echo(f"  {len(res.stale)} stale curation edits (see changelog.md)")
+        n = len(res.stale)
+        click.echo(f"  {n} stale curation edit{'' if n == 1 else 's'} (see changelog.md)")
 
 
 @click.command("verify")
