@@ -4,11 +4,11 @@ How an import runs:
 
 1. Statements go into a fresh content graph, in batches of ``batch_size``
    statements, so memory stays flat however large the dump is.
-2. Line-based formats (N-Triples, N-Quads, entity records) are read line by line.
-   When the parser stops at an error, the bad line is found (the parser reports a
-   missing final dot on the *next* line, so the line before is checked too), set
-   aside, and parsing resumes on the line after it. Exactly the bad lines are
-   rejected; every good line is loaded.
+2. Line-based formats (N-Triples, N-Quads, entity records) are read in chunks of whole
+   lines, parsed and sliced by :func:`kgkit.ingest.lines.process_chunk` (in worker
+   processes with ``jobs`` > 1). When the parser stops at an error, the bad line is
+   found, set aside, and parsing resumes on the line after it. Exactly the bad lines
+   are rejected; every good line is loaded. Turtle and JSON-LD are parsed as streams.
 3. Counts reconcile: read = loaded + duplicates + filtered + rejected. ``loaded``
    is the number of distinct statements in the content graph, so ``duplicates`` is
    what the store folded together.
