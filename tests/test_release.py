@@ -242,9 +242,12 @@ def test_release_is_reproducible(tmp_path):
     out = []
     for name in ("a", "b"):
         ws = init_workspace(tmp_path / name)
-        r = make_release(ws, setup(ws, dump(TOPICS_1)))
-        out.append(r.path)
+        spec = setup(ws, dump(TOPICS_1))
+        make_release(ws, spec)
+        setup(ws, dump(topics_2(), REDIRECT), "dump-2.nt")  # with a deprecation
+        out.append(make_release(ws, spec).path)
     a, b = out
+    assert a.name == b.name == "2.0.0"
     for name in RELEASE_FILES:
         if name != "manifest.json":
             assert (a / name).read_bytes() == (b / name).read_bytes(), name
