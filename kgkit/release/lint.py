@@ -56,8 +56,10 @@ class Check:
         return f"{_SOURCE}: {self.catalogue}"
 
 
-# Order is the order of the report. The catalogue names are the paper's (or, for
-# the last four, the qSKOS issue list's, from memory) and only appear as sources.
+# Order is the order of the report. The catalogue names only appear as sources; they
+# are the paper's, except Missing Labels, Empty Labels, Overlapping Labels and
+# Unprintable Characters in Labels, which (from memory) come from the qSKOS issue
+# list that extended the paper's catalogue.
 CHECKS: tuple[Check, ...] = (
     Check("hierarchy-loop", "error", "Cyclic Hierarchical Relations",
           "a concept is its own ancestor through broader/narrower links"),
