@@ -396,9 +396,8 @@ def test_rejects_default_path_and_explicit_path(workspace, tmp_path):
 @pytest.mark.parametrize("keep", ["all", "profile"])
 def test_bounded_windows_after_errors_lose_nothing(tmp_path, workspace, monkeypatch, keep):
     # after a bad line the rest of a batch is parsed in windows; make them tiny
-    from kgkit.ingest import lines, loader
+    from kgkit.ingest import lines
 
-    monkeypatch.setattr(loader, "_AFTER_ERROR_WINDOW", 2)
     monkeypatch.setattr(lines, "_AFTER_ERROR_WINDOW", 2)
     sl = make_slice(workspace, keep=keep)
     opts = ImportOptions(on_error="skip", rejects=tmp_path / "r.txt", slice=sl)

@@ -38,16 +38,14 @@ from kgkit.errors import KgkitError, ParseError, StoreError
 from kgkit.ingest import lines as _lines
 from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
 from kgkit.ingest.lines import (
-    _AFTER_ERROR_WINDOW,
     ChunkResult,
     ChunkSpec,
     cause_of,
     decode,
     iter_byte_chunks,
     iter_line_chunks,
-    locate,
+    process_chunk,
     process_chunks,
-    split_lines,
 )
 from kgkit.ingest.slicing import Slice
 from kgkit.ingest.sources import Source, open_source
@@ -259,48 +257,24 @@ class _Run:
             self.store.bulk_extend(batch)
 
 
-def _load_raw(run: _Run, label: str, first: int, data: bytes, fmt: ox.RdfFormat) -> None:
-    """Load N-Triples through the store's own parser; on an error, reject the bad line, go on.
+def _load_raw(run: _Run, label: str, first: int, data: bytes) -> None:
+    """Load N-Triples through the store's own parser, the fast path.
 
-    ``run.read`` already counts every statement of ``data``. A failed bulk load may have
-    written part of the data: the statements before the bad line are loaded again (the
-    store keeps one copy), the bad line is set aside, loading resumes after it.
+    ``run.read`` already counts every statement of ``data``. On an error the data is
+    parsed here instead (the failed bulk load may have written part of it; the store
+    keeps one copy of each statement), so that the bad lines are set aside in line order
+    and every good one is loaded.
     """
     try:
         run.load_text(data)
         return
-    except SyntaxError as exc:
-        error = exc.with_traceback(None)
-    _bulk_segments(run, label, first, split_lines(data), fmt, error)
-
-
-def _bulk_segments(
-    run: _Run,
-    label: str,
-    first: int,
-    lines: list[bytes],
-    fmt: ox.RdfFormat,
-    error: SyntaxError | None = None,
-) -> None:
-    pos, window = 0, len(lines)
-    while pos < len(lines):
-        seg = lines[pos : pos + window] if pos else lines
-        if error is None:
-            try:
-                run.load_text(b"".join(seg))
-                pos += len(seg)
-                continue
-            except SyntaxError as exc:
-                error = exc.with_traceback(None)
-        idx, col, cause = locate(seg, error, fmt)
-        error = None
-        run.read -= 1  # run.bad counts the bad statement again
-        run.bad(label, first + pos + idx, col, cause, decode(seg[idx]))
-        if idx:
-            _bulk_segments(run, label, first + pos, seg[:idx], fmt)
-        pos += idx + 1
-        # bounded windows after an error (see kgkit.ingest.lines)
-        window = _AFTER_ERROR_WINDOW
+    except SyntaxError:
+        pass
+    res = process_chunk(ChunkSpec("nt", raw_ok=False), first, data)
+    run.read -= len(res.rejects)  # run.bad counts each bad statement again
+    for line, col, cause, text in res.rejects:
+        run.bad(label, line, col, cause, text)
+    run.load_text(res.text)
 
 
 class _Pending:
@@ -363,7 +337,7 @@ class _Pending:
             data = b"".join(self.raw)
             self.raw, self.raw_lines = [], 0
             self.wait()
-            _load_raw(self.run, self.label, self.raw_first, data, ox.RdfFormat.N_TRIPLES)
+            _load_raw(self.run, self.label, self.raw_first, data)
 
     def flush_text(self) -> None:
         if self.text:
