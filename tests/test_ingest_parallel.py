@@ -114,3 +114,30 @@ def test_parallel_records_and_compressed_input(tmp_path, workspace, monkeypatch)
         "40",
         "57",
     ]
+
+
+@pytest.mark.parametrize(
+    "data, n",
+    [
+        (b"", 0),
+        (b"<a> <b> <c> .", 1),
+        (b"# only a comment\n", 0),
+        (b"\n\n  \t\n<a> <b> <c> .\n", 1),
+        (b" <a> <b> <c> .\n#x\n\r\n<a> <b> <d> .", 2),
+    ],
+)
+def test_count_statements(data, n):
+    assert lines.count_statements(data) == n
+    assert n == sum(1 for x in lines.split_lines(data) if lines.is_statement(x))
+
+
+def test_byte_chunks_are_cut_at_line_ends_with_their_first_line_numbers():
+    import io
+
+    text = b"".join(b"line %d\n" % i for i in range(1, 101)) + b"no newline at the end"
+    chunks = list(lines.iter_byte_chunks(io.BytesIO(text), 64))
+    assert b"".join(d for _, d in chunks) == text
+    for first, data in chunks:
+        assert data.endswith(b"\n") or data == b"no newline at the end"
+        assert data.startswith(b"line %d\n" % first) or first == 101
+    assert chunks[-1][0] == 101

@@ -116,7 +116,7 @@ def _lone_cause(line: bytes, err: SyntaxError) -> str:
 
 
 # a line that is not a statement starts with white space or '#', or is empty
-_MAYBE_NOT_STATEMENT = re.compile(rb"\n[ \t\r\n#]")
+_MAYBE_NOT_STATEMENT = re.compile(rb"\n(?=[ \t\r\n#])")
 
 
 def count_statements(data: bytes) -> int:
