@@ -2,7 +2,7 @@
 
 Every check comes from the published catalogue of SKOS quality issues: C. Mader,
 B. Haslhofer and A. Isaac, "Finding Quality Issues in SKOS Vocabularies", TPDL 2012
-(LNCS 7489), and the issue list of the authors' qSKOS tool that grew out of it.
+(LNCS 7489), and the longer issue list its authors published after it.
 Checks carry our own names; ``source`` names the catalogue entry each one is taken
 from. Two of them are also conditions of the W3C SKOS Reference (2009): S13 (the
 preferred, alternative and hidden label sets of a concept are pairwise disjoint)
@@ -58,8 +58,8 @@ class Check:
 
 # Order is the order of the report. The catalogue names only appear as sources; they
 # are the paper's, except Missing Labels, Empty Labels, Overlapping Labels and
-# Unprintable Characters in Labels, which (from memory) come from the qSKOS issue
-# list that extended the paper's catalogue.
+# Unprintable Characters in Labels, which (from memory) come from the longer issue
+# list the same authors published after the paper.
 CHECKS: tuple[Check, ...] = (
     Check("hierarchy-loop", "error", "Cyclic Hierarchical Relations",
           "a concept is its own ancestor through broader/narrower links"),
