@@ -207,3 +207,34 @@ def test_import_w3c_files_through_the_cli(kgkit):
     # line 1 is a comment; the bad IRI starts the statement on line 2
     bad = W3C / "ntriples" / "nt-syntax-bad-uri-01.nt"
     assert r.output.startswith(f"Error: {bad}:2:1: invalid IRI code point ' '")
+
+
+def test_import_jobs_accepts_every_option_and_prints_the_same_summary(kgkit, monkeypatch, tmp_path):
+    from kgkit.ingest import lines
+
+    monkeypatch.setattr(lines, "CHUNK_BYTES", 300)  # several chunks from the small dump
+    common = ["--on-error", "skip", "--keep", "profile", "--languages", "en,de", "--json"]
+    common += ["--batch-size", "5", "--quiet", "--format", "nt"]
+    out = {}
+    for jobs in ("1", "2"):
+        rejects = str(tmp_path / f"{jobs}.rejects.txt")
+        r = kgkit(
+            "import",
+            str(MESSY),
+            "--graph",
+            f"g{jobs}",
+            "--jobs",
+            jobs,
+            *common,
+            "--rejects",
+            rejects,
+        )
+        assert r.exit_code == 0, r.output
+        d = _last_json(r.output)
+        out[jobs] = {
+            k: v for k, v in d.items() if k not in ("seconds", "graph", "content", "rejects")
+        }
+    assert out["1"] == out["2"]
+    assert out["2"]["filtered"] == 4 and out["2"]["rejected"] == 5
+    one, two = ((tmp_path / f"{j}.rejects.txt").read_text(encoding="utf-8") for j in "12")
+    assert one == two
