@@ -84,6 +84,8 @@ def _measure(mode: str, dump: Path, extra: list[str] | None = None) -> dict:
         raise SystemExit(f"{mode} on {dump} failed (exit {proc.returncode})")
     res = json.loads(stdout.strip().splitlines()[-1])
     res["peak_rss_mb"] = usage.ru_maxrss / 1024  # Linux: kilobytes
+    # the machine is shared: say how busy it was (1-minute load average after the run)
+    res["load_average"] = os.getloadavg()[0]
     return res
 
 
@@ -146,7 +148,8 @@ def main(argv: list[str] | None = None) -> int:
         results.append(best)
         print(
             f"  {size:<13} {mode:<22} {best['seconds']:7.2f} s  "
-            f"{best['throughput']:>10,.0f} triples/s  {best['peak_rss_mb']:7.0f} MB",
+            f"{best['throughput']:>10,.0f} triples/s  {best['peak_rss_mb']:7.0f} MB"
+            f"  load {best['load_average']:.1f}",
             file=sys.stderr,
             flush=True,
         )
@@ -191,12 +194,12 @@ def main(argv: list[str] | None = None) -> int:
         ),
     ]
     print()
-    print("| dump | triples | loader | seconds | triples/s | peak RSS MB |")
-    print("|---|---:|---|---:|---:|---:|")
+    print("| dump | triples | loader | seconds | triples/s | peak RSS MB | load avg |")
+    print("|---|---:|---|---:|---:|---:|---:|")
     for r in results:
         print(
             f"| {r['dump']} | {r['triples']:,} | {r['mode']} | {r['seconds']:.2f} | "
-            f"{r['throughput']:,.0f} | {r['peak_rss_mb']:,.0f} |"
+            f"{r['throughput']:,.0f} | {r['peak_rss_mb']:,.0f} | {r['load_average']:.1f} |"
         )
     print()
     print("| ratio | value | met |")
