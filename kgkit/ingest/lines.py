@@ -310,6 +310,7 @@ def iter_line_chunks(
             first += len(lines)
             lines = []  # let the line objects go before the chunk is processed
             yield start, data
+            data = None  # nor keep this chunk while the next one is read
         if tick and n % step == 0:
             tick()
     if lines:

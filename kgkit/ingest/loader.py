@@ -473,6 +473,7 @@ def _load_source(
     try:
         for res in results:
             pending.add(res)
+            del res  # the chunk's bytes go once loaded, not when the next one arrives
             tick()
         pending.flush()
     finally:
