@@ -131,53 +131,67 @@
     return null;
   }
 
+  // the parts of each tree node that a search changes, found once
+  const parts = new Map(allNodes.map((li) => [li, {
+    name: li.querySelector(":scope > .row > .name"),
+    hint: li.querySelector(":scope > .row > .hint"),
+    up: li.parentElement.closest("li.node"),
+  }]));
+  let decorated = [];
+
+  function show_(li, visible, open) {
+    if (li.hidden === visible) li.hidden = !visible;
+    if (li.classList.contains("open") !== open) setOpen(li, open);
+  }
+
   function applySearch() {
     const q = key(search.value);
-    const hits = new Set();
+    for (const li of decorated) {
+      const p = parts.get(li);
+      p.name.textContent = label(byId.get(li.dataset.id));
+      p.hint.textContent = "";
+      li.classList.remove("hit");
+    }
+    decorated = [];
     if (!q) {
-      for (const li of allNodes) {
-        li.hidden = false;
-        li.classList.remove("hit");
-        const id = li.dataset.id;
-        li.querySelector(":scope > .row > .name").textContent = label(byId.get(id));
-        li.querySelector(":scope > .row > .hint").textContent = "";
-        setOpen(li, li.parentElement === top);
-      }
+      for (const li of allNodes) show_(li, true, li.parentElement === top);
       status.textContent = "";
       tree.classList.remove("searching");
       return;
     }
     tree.classList.add("searching");
-    // post-order: a node stays visible when it matches or a descendant does
-    function visit(li) {
-      const id = li.dataset.id;
-      const m = matchOf(id, q);
-      let below = false;
-      const ul = li.querySelector(":scope > ul");
-      if (ul) for (const kid of ul.children) below = visit(kid) || below;
-      const name = li.querySelector(":scope > .row > .name");
-      const hint = li.querySelector(":scope > .row > .hint");
-      name.textContent = "";
-      hint.textContent = "";
-      if (m) {
-        hits.add(id);
-        const shown = label(byId.get(id));
-        if (m[1].startsWith("label") && m[0] === shown) name.append(markText(shown, q));
-        else {
-          // matched through an alias, a label in another language, or the id: say which
-          name.textContent = shown;
-          const what = m[1].startsWith("alias") ? "alias" : m[1];
-          hint.append(what + ": ", markText(m[0], q));
-        }
-      } else {
-        name.textContent = label(byId.get(id));
-      }
-      li.classList.toggle("hit", !!m);
-      li.hidden = !(m || below);
-      setOpen(li, below);
-      return !!(m || below);
+    // matches come from the data; a node stays visible when it matches or one below it does
+    const hits = new Map();
+    for (const t of topics) {
+      const m = matchOf(t.id, q);
+      if (m) hits.set(t.id, m);
     }
-    for (const li of top.children) visit(li);
+    const visible = new Set(), opened = new Set();
+    for (const li of allNodes) {
+      if (!hits.has(li.dataset.id)) continue;
+      visible.add(li);
+      for (let up = parts.get(li).up; up && !opened.has(up); up = parts.get(up).up) {
+        opened.add(up);
+        visible.add(up);
+      }
+    }
+    for (const li of allNodes) show_(li, visible.has(li), opened.has(li));
+    for (const li of visible) {
+      const m = hits.get(li.dataset.id);
+      if (!m) continue;
+      const p = parts.get(li);
+      const shown = label(byId.get(li.dataset.id));
+      p.name.textContent = "";
+      if (m[1].startsWith("label") && m[0] === shown) p.name.append(markText(shown, q));
+      else {
+        // matched through an alias, a label in another language, or the id: say which
+        p.name.textContent = shown;
+        const what = m[1].startsWith("alias") ? "alias" : m[1];
+        p.hint.append(what + ": ", markText(m[0], q));
+      }
+      li.classList.add("hit");
+      decorated.push(li);
+    }
     status.textContent = hits.size
       ? hits.size + (hits.size === 1 ? " topic matches" : " topics match")
       : "no topic matches \u201c" + search.value.trim() + "\u201d";
@@ -255,7 +269,13 @@
     }
   }
 
-  search.addEventListener("input", applySearch);
+  let pending = 0;
+  search.addEventListener("input", () => {
+    // a large vocabulary waits for a pause in the typing; a small one answers each key
+    clearTimeout(pending);
+    if (topics.length > 5000) pending = setTimeout(applySearch, 120);
+    else applySearch();
+  });
   search.addEventListener("keydown", (ev) => {
     if (ev.key === "Enter") {
       const first = allNodes.find((li) => li.classList.contains("hit") && !li.hidden);
