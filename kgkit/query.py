@@ -467,20 +467,54 @@ def _json_term(term) -> dict:
     raise TypeError(f"not an RDF term: {term!r}")
 
 
+_quote = json.encoder.encode_basestring  # the C encoder json.dumps uses, no ASCII escaping
+
+
+def _json_text(term) -> str:
+    """One term as W3C JSON results text; the same as ``json.dumps(_json_term(term))``."""
+    kind = type(term)
+    if kind is ox.NamedNode:
+        return '{"type": "uri", "value": ' + _quote(term.value) + "}"
+    if kind is ox.Literal:
+        if term.language:
+            return (
+                '{"type": "literal", "value": '
+                + _quote(term.value)
+                + ', "xml:lang": '
+                + _quote(term.language)
+                + "}"
+            )
+        dt = term.datatype.value
+        if dt == XSD_STRING:
+            return '{"type": "literal", "value": ' + _quote(term.value) + "}"
+        return (
+            '{"type": "literal", "value": '
+            + _quote(term.value)
+            + ', "datatype": '
+            + _quote(dt)
+            + "}"
+        )
+    return json.dumps(_json_term(term), ensure_ascii=False)
+
+
 def _write_json(res: QueryResult, out: TextIO) -> None:
     # W3C SPARQL 1.1 Query Results JSON Format, one binding per line so it streams
     if res.kind == "ask":
         out.write(json.dumps({"head": {}, "boolean": bool(res.boolean)}) + "\n")
         return
     out.write('{"head": {"vars": ' + json.dumps(res.variables) + '}, "results": {"bindings": [')
-    names = res.variables
-    first = True
-    dumps = json.dumps
+    keys = [_quote(n) + ": " for n in res.variables]
+    sep = "\n"
+    write = out.write
     for row in res.rows:
-        binding = {n: _json_term(t) for n, t in zip(names, row, strict=True) if t is not None}
-        out.write(("\n" if first else ",\n") + dumps(binding, ensure_ascii=False))
-        first = False
-    out.write("\n]}}\n")
+        write(
+            sep
+            + "{"
+            + ", ".join(k + _json_text(t) for k, t in zip(keys, row, strict=True) if t is not None)
+            + "}"
+        )
+        sep = ",\n"
+    write("\n]}}\n")
 
 
 def _csv_value(term) -> str:

@@ -297,3 +297,19 @@ def test_rows_stream(ws):
         first = next(res.rows)
         assert isinstance(first[0], ox.NamedNode)
         assert not isinstance(res.rows, list)
+
+
+def test_fast_json_terms_equal_the_plain_encoding():
+    from kgkit.query import _json_term, _json_text
+
+    terms = [
+        ox.NamedNode("http://example.org/t/é?q=1&r=ü"),
+        ox.BlankNode("b1"),
+        ox.Literal('a "quoted"\\ line\nand tab\t and \u0001 ünï'),
+        ox.Literal("Kanupolo", language="de-CH"),
+        ox.Literal("5", datatype=ox.NamedNode("http://www.w3.org/2001/XMLSchema#integer")),
+        ox.Literal("x", datatype=ox.NamedNode("http://www.w3.org/2001/XMLSchema#string")),
+    ]
+    for t in terms:
+        assert json.loads(_json_text(t)) == _json_term(t)
+        assert _json_text(t) == json.dumps(_json_term(t), ensure_ascii=False)
