@@ -241,6 +241,11 @@ def build_vocabulary(
     for tid in sorted(active):
         t = topics[tid]
         pref, _borrowed, others = prefs[tid]
+        if not t.aliases and not others:
+            for text in pref.values():
+                keys[text]  # noqa: B018 - the lexicon needs the key; compute it once here
+            names[tid] = (pref, {})
+            continue
         raw = t.aliases + [(lg, x, "label") for lg, x in others]
         aliases, gone = clean_aliases(
             tid, pref, raw, spec.aliases, lang_rules, t.alias_removals, keys
