@@ -59,8 +59,22 @@ def test_release_page_is_self_contained_and_complete(demo_workspace):
     ids = {t["id"] for t in data["topics"]}
     on_disk = {json.loads(x)["id"] for x in (second / "topics.jsonl").open(encoding="utf-8")}
     assert ids == on_disk
-    for section in ("topics", "changes", "ambiguous", "dropped", "repairs", "lint", "charts"):
+    for section in (
+        "topics",
+        "changes",
+        "ambiguous",
+        "dropped",
+        "repairs",
+        "lint",
+        "charts",
+        "provenance",
+    ):
         assert f'<section id="{section}">' in page
+    manifest = json.loads((second / "manifest.json").read_text(encoding="utf-8"))
+    (source,) = manifest["sources"]
+    for f in source["files"]:  # where it came from: each dump file, by name and hash
+        assert f"{f['name']} <code>sha256 {f['sha256'][:16]}…</code>" in page
+    assert manifest["content_sha256"] in page
     assert "<h1>tidewell 2.0.0</h1>" in page
     assert "Against <strong>1.0.0</strong>" in page
     assert "deprecated seaweed-foraging, replaced by shore-foraging" in page

@@ -279,6 +279,43 @@ def _charts(review: Review) -> str:
     )
 
 
+def _provenance(manifest: dict | None) -> str:
+    """Where a release came from, as its manifest records it."""
+    if not manifest:
+        return '<p class="empty">a build has no manifest; release it to record its sources.</p>'
+    rows = []
+    for src in manifest.get("sources") or []:
+        files = "<br>".join(
+            f"{_e(str(f.get('name', '')))} <code>sha256 {_e(str(f.get('sha256', ''))[:16])}…</code>"
+            for f in src.get("files") or []
+        )
+        rows.append(
+            [
+                _e(str(src.get("graph", ""))),
+                files,
+                _e(f"{src.get('triples', 0):,}"),
+                f"<code>{_e(str(src.get('sha256', ''))[:16])}…</code>",
+            ]
+        )
+    facts = []
+    for key in ("spec", "curation"):
+        item = manifest.get(key)
+        if isinstance(item, dict) and item.get("path"):
+            facts.append(
+                f"{key} <code>{_e(str(item['path']))}</code> "
+                f"<code>sha256 {_e(str(item.get('sha256', ''))[:16])}…</code>"
+            )
+    for t in manifest.get("templates") or []:
+        facts.append(f"template <code>{_e(str(t.get('name', '')))}</code>")
+    facts.append(f"content <code>sha256 {_e(str(manifest.get('content_sha256', '')))}</code>")
+    if manifest.get("released"):
+        facts.append(f"released {_e(str(manifest['released']))}")
+    if manifest.get("kgkit_version"):
+        facts.append(f"kgkit {_e(str(manifest['kgkit_version']))}")
+    table = _table(["graph", "files", "statements", "graph sha256"], rows, "no source graphs.")
+    return table + '<ul class="facts-list">' + "".join(f"<li>{f}</li>" for f in facts) + "</ul>"
+
+
 def _section(anchor: str, title: str, count: int | None, body: str) -> str:
     badge = f' <span class="badge">{count:,}</span>' if count is not None else ""
     return f'<section id="{anchor}"><h2>{_e(title)}{badge}</h2>{body}</section>'
@@ -474,6 +511,7 @@ def render_page(review: Review) -> str:
                 ),
             ),
             _section("lint", "Lint findings", n_lint, lint_body),
+            _section("provenance", "Provenance", None, _provenance(review.manifest)),
         ]
     )
     body = f"""
@@ -486,7 +524,7 @@ def render_page(review: Review) -> str:
   <nav class="jump">
     <a href="#topics">Topics</a><a href="#changes">Changes</a><a href="#ambiguous">Ambiguous</a>
     <a href="#dropped">Dropped</a><a href="#repairs">Repairs</a><a href="#lint">Lint</a>
-    <a href="#charts">Charts</a>
+    <a href="#charts">Charts</a><a href="#provenance">Provenance</a>
   </nav>
 </header>
 <main>
