@@ -595,8 +595,15 @@ def _write_table(
         cap = max((budget - sum(small)) // max(big, 1), 8)
         widths = [min(w, cap) for w in widths]
 
+    # widths come from the first rows; a later, longer value in the last column still
+    # uses the rest of the line, elsewhere it is cut to keep the columns aligned
+    last_room = max(room - sum(widths[:-1]), widths[-1]) if widths else 0
+    limits = [*widths[:-1], last_room]
+
     def line(cells: list[str]) -> str:
-        return "  ".join(_cut(c, w).ljust(w) for c, w in zip(cells, widths, strict=True)).rstrip()
+        return "  ".join(
+            _cut(c, m).ljust(w) for c, w, m in zip(cells, widths, limits, strict=True)
+        ).rstrip()
 
     out.write(line(names) + "\n")
     out.write("  ".join("-" * w for w in widths) + "\n")

@@ -313,3 +313,22 @@ def test_fast_json_terms_equal_the_plain_encoding():
     for t in terms:
         assert json.loads(_json_text(t)) == _json_term(t)
         assert _json_text(t) == json.dumps(_json_term(t), ensure_ascii=False)
+
+
+@pytest.mark.parametrize("fmt", ["table", "json", "csv", "tsv"])
+def test_output_streams_rows_before_the_result_ends(fmt):
+    from kgkit.query import QueryResult
+
+    class Boom(Exception):
+        pass
+
+    def rows():
+        for i in range(500):
+            yield (ox.NamedNode(f"http://example.org/r/{i}"),)
+        raise Boom
+
+    out = io.StringIO()
+    with pytest.raises(Boom):
+        write_result(QueryResult(kind="select", variables=["r"], rows=rows()), out, fmt, None)
+    # everything up to the failure was written already: nothing waits for the end
+    assert "http://example.org/r/499" in out.getvalue()
