@@ -90,3 +90,27 @@ def test_every_readme_command_line_parses():
 def test_the_command_reference_lists_every_command(name):
     section = README.split("\n## Command reference\n", 1)[1].split("\n## ", 1)[0]
     assert re.search(rf"^kgkit {re.escape(name)}\b", section, flags=re.M), name
+
+
+def test_the_demo_walk_quotes_real_output(runner, tmp_path, monkeypatch):
+    # every line of the README's demo excerpts is a line the demo really prints
+    section = README.split("\n## The demo, step by step\n", 1)[1].split("\n## ", 1)[0]
+    quoted = [
+        line.strip()
+        for block in re.findall(r"```text\n(.*?)```", section, flags=re.S)
+        for line in block.splitlines()
+        if line.strip() and line.strip() != "..."
+    ]
+    assert len(quoted) > 30
+    monkeypatch.chdir(tmp_path)  # the README runs it as `kgkit demo demo-workspace`
+    res = runner.invoke(cli, ["demo", "demo-workspace"])
+    assert res.exit_code == 0, res.output
+    printed = [line.strip() for line in res.output.splitlines()]
+    missing = []
+    for line in quoted:
+        if line.endswith("..."):  # shortened in the README: the start must match
+            if not any(p.startswith(line[:-3].rstrip()) for p in printed):
+                missing.append(line)
+        elif line not in printed:
+            missing.append(line)
+    assert missing == []
