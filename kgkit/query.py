@@ -598,7 +598,7 @@ def _write_table(
     # widths come from the first rows; a later, longer value in the last column still
     # uses the rest of the line, elsewhere it is cut to keep the columns aligned
     last_room = max(room - sum(widths[:-1]), widths[-1]) if widths else 0
-    limits = [*widths[:-1], last_room]
+    limits = [*widths[:-1], last_room] if widths else []
 
     def line(cells: list[str]) -> str:
         return "  ".join(

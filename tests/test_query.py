@@ -332,3 +332,8 @@ def test_output_streams_rows_before_the_result_ends(fmt):
         write_result(QueryResult(kind="select", variables=["r"], rows=rows()), out, fmt, None)
     # everything up to the failure was written already: nothing waits for the end
     assert "http://example.org/r/499" in out.getvalue()
+
+
+def test_a_result_without_variables(ws):
+    assert _out(ws, "SELECT * WHERE { }", "table") == "\n\n\n(1 row)\n"
+    assert json.loads(_out(ws, "SELECT * WHERE { }", "json"))["results"]["bindings"] == [{}]
