@@ -211,3 +211,14 @@ def test_plain_text_takes_the_short_path_with_the_same_offsets():
     text = "Gig rowing at Vellmouth,  then KAYAK  polo.\n"
     hits = probe_text(load_lexicon(LEX), text)
     assert [(h.start, h.end, h.text) for h in hits] == [(31, 42, "KAYAK  polo")]
+
+
+def test_corpus_errors(tmp_path, lexicon):
+    with pytest.raises(ProbeError, match="no .txt documents in this folder"):
+        probe_corpus(lexicon, tmp_path)
+    (tmp_path / "a.txt").write_text("canoe", encoding="utf-8")
+    with pytest.raises(ProbeError, match="threshold must be a share between 0 and 1, not 0"):
+        probe_corpus(lexicon, tmp_path, threshold=0)
+    (tmp_path / "b.txt").write_bytes(b"\xffcanoe")
+    with pytest.raises(ProbeError, match=r"b.txt: not UTF-8 text \(byte 0\)"):
+        probe_corpus(lexicon, tmp_path)
