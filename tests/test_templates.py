@@ -291,3 +291,12 @@ def test_run_query_sees_template_text_exactly(ws):
     with connect(ws) as b:
         rows = list(run_query(b, text).rows)
     assert [(r[0].value, r[1].value) for r in rows] == [(T + "rowing", T + "lakeport-regatta")]
+
+
+@pytest.mark.parametrize("module", ["kgkit.query", "kgkit.templates", "kgkit.shell"])
+def test_doctests(module):
+    import doctest
+    import importlib
+
+    result = doctest.testmod(importlib.import_module(module))
+    assert result.failed == 0 and result.attempted > 0, module
