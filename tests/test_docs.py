@@ -33,7 +33,11 @@ def _command_of(line: str) -> tuple[str, list[str]]:
     """Parse a README line as the kgkit command line would; returns (command, its args)."""
     args = shlex.split(line, comments=True)[1:]
     ctx = cli.make_context("kgkit", list(args), resilient_parsing=False)
-    rest = list(ctx._protected_args) + list(ctx.args)
+    # the sub-command and its arguments (click 8.2 renamed protected_args to _protected_args)
+    protected = getattr(ctx, "_protected_args", None)
+    if protected is None:
+        protected = ctx.protected_args
+    rest = list(protected) + list(ctx.args)
     name, command, sub_args = cli.resolve_command(ctx, rest)
     try:
         command.make_context(name, list(sub_args), parent=ctx)
