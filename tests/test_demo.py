@@ -84,7 +84,7 @@ def test_demo_messiness_shows_up_where_it_should(demo_workspace):
     assert [c["members"] for c in first["cycles"]] == [["knot-tying", "rope-work"]]
     assert ["canoe-polo", "water-sports"] in first["reductions"]
     assert ["composting", "leisure"] in first["reductions"]
-    assert {a["key"] for a in first["ambiguous"]} == {"netting", "tacking"}
+    assert {a["key"] for a in first["ambiguous"]} == {"netting", "tacking", "saltmere"}
     reasons = {d["id"]: d["reason"] for d in first["dropped_topics"]}
     for noise in ("topic", "activity", "miscellany", "places"):
         assert reasons[noise] == "stop-topic"
@@ -148,3 +148,15 @@ def test_probe_flags_the_cooperative_name_in_the_demo_corpus(demo_workspace):
     report = probe_corpus(first, demo_workspace["root"] / "corpus")
     assert [k.key for k in report.flagged] == ["tidewell"]
     assert report.flagged[0].documents == report.documents == 36
+
+
+def test_probe_of_the_demo_release_shows_both_saltmeres(demo_workspace):
+    from kgkit.probe import probe_text
+
+    second = demo_workspace["releases"][1]
+    (hit,) = [h for h in probe_text(second, "A regatta off Saltmere.") if h.key == "saltmere"]
+    assert hit.is_ambiguous
+    assert [(c.topic, c.parents) for c in hit.candidates] == [
+        ("saltmere", (("tidewell-region", "Tidewell region"),)),
+        ("saltmere-reedlands", (("reedlands", "Reedlands"),)),
+    ]

@@ -270,13 +270,20 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     page = write_page(second.path, directory / f"{SPEC_NAME}-{second.version}-review.html")
     yield DemoStep("wrote the review page (open it in a browser)", [], [page])
 
-    article = corpus[0]
-    hits = load_lexicon(second.path).find(article.read_text(encoding="utf-8"))
+    # the first article where a name is ambiguous, to show what an annotator faces
+    lexicon2 = load_lexicon(second.path)
+    article, hits = corpus[0], lexicon2.find(corpus[0].read_text(encoding="utf-8"))
+    for path in corpus:
+        found = lexicon2.find(path.read_text(encoding="utf-8"))
+        if any(h.is_ambiguous for h in found):
+            article, hits = path, found
+            break
     lines = []
     for h in hits[:6]:
         cands = " | ".join(
             f"{c.topic} (under {', '.join(p for p, _l in c.parents) or 'nothing'})"
             for c in h.candidates
         )
-        lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}")
+        mark = "  AMBIGUOUS" if h.is_ambiguous else ""
+        lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}{mark}")
     yield DemoStep(f"probed {article.name} with release {second.version}", lines, [])
