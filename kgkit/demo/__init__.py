@@ -23,8 +23,16 @@ from importlib import resources
 from pathlib import Path
 
 from kgkit.demo.generate import REFRESH, write_corpus, write_dumps
+from kgkit.entities import find_entities, format_matches
 from kgkit.errors import KgkitError
 from kgkit.ingest import ImportOptions, import_files, make_slice
+from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
+from kgkit.query import connect, run_query
+from kgkit.release.release import make_release
+from kgkit.report import write_page
+from kgkit.templates import run_template
+from kgkit.vocab.compile import compile_vocabulary
+from kgkit.vocab.curation import load_curation
 from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
 
 __all__ = ["DemoStep", "DemoError", "iter_demo", "run_demo", "SPEC_NAME"]
@@ -90,8 +98,6 @@ def _rejected_causes(path: Path, limit: int = 3) -> list[str]:
 
 
 def _explore(ws) -> DemoStep:
-    from kgkit.query import connect, run_query
-    from kgkit.templates import run_template
 
     step = DemoStep("explored the graphs with templates and SPARQL")
     with connect(ws) as backend:
@@ -109,8 +115,6 @@ def _explore(ws) -> DemoStep:
             f"children of tw:crafts: {len(kids)}; the largest: "
             + ", ".join(f"{label} ({-n})" for n, label in kids[:3])
         )
-        from kgkit.entities import find_entities, format_matches
-
         matches = [m for m in find_entities(backend, "netting") if m.kind == "alias"]
         step.lines.append("two topics share the alias 'netting'; their parents tell them apart:")
         step.lines += ["  " + x for x in format_matches(matches).splitlines()]
@@ -127,12 +131,6 @@ def _explore(ws) -> DemoStep:
     return step
 
 
-def _release(ws, spec: Path):
-    from kgkit.release.release import make_release
-
-    return make_release(ws, spec)
-
-
 def _topline(path: Path, n: int) -> list[str]:
     return path.read_text(encoding="utf-8").splitlines()[:n]
 
@@ -147,8 +145,6 @@ def run_demo(directory: Path) -> list[DemoStep]:
 
 def iter_demo(directory: Path) -> Iterator[DemoStep]:
     """:func:`run_demo`, one step at a time (each is yielded when it is done)."""
-    from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
-
     directory = Path(directory)
     if (directory / CONFIG_NAME).exists():
         raise DemoError(f"{directory} already holds a workspace; give a new folder")
@@ -195,8 +191,6 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     curation = vocab / f"{SPEC_NAME}.curation.yaml"
     curation.write_text(_asset("curation-start.yaml"), encoding="utf-8")
 
-    from kgkit.vocab.compile import compile_vocabulary
-
     result = compile_vocabulary(ws, spec)
     yield (
         DemoStep(
@@ -206,7 +200,7 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
         )
     )
 
-    first = _release(ws, spec)
+    first = make_release(ws, spec)
     yield DemoStep(f"released {SPEC_NAME} {first.version}", [], [Path(first.path)])
 
     lexicon = load_lexicon(first.path)
@@ -226,8 +220,6 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
             f"    note: {json.dumps(e['note'], ensure_ascii=False)}\n"
         )
     curation.write_text(text, encoding="utf-8")
-    from kgkit.vocab.curation import load_curation
-
     yield (
         DemoStep(
             "curated: hand edits, plus the too-common aliases the probe flagged",
@@ -248,7 +240,7 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
         )
     )
 
-    second = _release(ws, spec)
+    second = make_release(ws, spec)
     changelog = Path(second.path) / "changelog.md"
     yield (
         DemoStep(
@@ -264,8 +256,6 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
             [Path(second.path), changelog],
         )
     )
-
-    from kgkit.report import write_page
 
     page = write_page(second.path, directory / f"{SPEC_NAME}-{second.version}-review.html")
     yield DemoStep("wrote the review page (open it in a browser)", [], [page])
