@@ -78,7 +78,7 @@ class _Bar:
     type=int,
     default=DEFAULT_BATCH,
     show_default=True,
-    help="Statements loaded per batch: the memory budget (about 1 GB per million).",
+    help="Statements loaded per batch: the memory budget (about 0.6 GB at the default).",
 )
 @click.option("--base", "base_iri", help="Base IRI for relative IRIs in Turtle and JSON-LD.")
 @click.option(
