@@ -218,27 +218,29 @@ def process_chunk(
     def scoped(t):
         return ox.BlankNode(scope + t.value) if isinstance(t, ox.BlankNode) else t
 
-    def take(quads) -> None:
-        res.read += len(quads)
-        for q in quads:
-            if keeps is not None and not keeps(q):
-                res.filtered += 1
-            elif isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode):
-                if scope is None:
-                    blank.append(q)
-                else:
-                    kept_text.append(f"{scoped(q.subject)} {q.predicate} {scoped(q.object)} .\n")
+    def take(q) -> None:
+        res.read += 1
+        if keeps is not None and not keeps(q):
+            res.filtered += 1
+        elif isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode):
+            if scope is None:
+                blank.append(q)
             else:
-                kept_text.append(f"{q.subject} {q.predicate} {q.object} .\n")
+                kept_text.append(f"{scoped(q.subject)} {q.predicate} {scoped(q.object)} .\n")
+        else:
+            kept_text.append(f"{q.subject} {q.predicate} {q.object} .\n")
 
+    # First the whole chunk as a stream (no list of a million quads held); on an error,
+    # forget what it gave and go over the chunk's lines to set the bad ones aside.
+    read, filtered, n_text, n_blank = res.read, res.filtered, len(kept_text), len(blank)
     try:
-        quads = list(ox.parse(input=data, format=fmt))
-        lines = None  # the whole chunk parsed: no need to look at its lines
+        for q in ox.parse(input=data, format=fmt):
+            take(q)
+        lines = []  # the whole chunk parsed: no need to look at its lines
     except SyntaxError:
+        res.read, res.filtered = read, filtered
+        del kept_text[n_text:], blank[n_blank:]
         lines = split_lines(data)
-    if lines is None:
-        take(quads)
-        lines = []
     pos, window = 0, len(lines)
     while pos < len(lines):
         seg = lines[pos : pos + window]
@@ -253,7 +255,8 @@ def process_chunk(
             upto = bad[0]
             if len(quads) != sum(1 for x in seg[:upto] if is_statement(x)):
                 quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
-        take(quads)
+        for q in quads:
+            take(q)
         if bad is None:
             pos += len(seg)
             continue
