@@ -206,7 +206,7 @@ def main(argv: list[str] | None = None) -> int:
     print("|---|---:|---|")
     for name, value, target in checks:
         met = value <= -target if target < 0 else value >= target
-        print(f"| {name} | {value:.2f} | {'yes' if met else 'no'} |")
+        print(f"| {name} | {value:.2f} | {'-' if target == 0 else 'yes' if met else 'no'} |")
     (OUT / "import_bench.json").write_text(
         json.dumps(
             {"results": results, "ratios": {n: v for n, v, _ in checks}}, indent=2, sort_keys=True
