@@ -103,7 +103,12 @@ class Shell:
     def loop(self) -> None:
         buf: list[str] = []
         while True:
-            line = self.read(MORE if buf else PROMPT)
+            try:
+                line = self.read(MORE if buf else PROMPT)
+            except KeyboardInterrupt:  # Ctrl-C drops what was typed, not the session
+                self.write("\n(cancelled)\n")
+                buf = []
+                continue
             if line is None:
                 if buf:
                     self.write("(unfinished statement dropped: end it with ;)\n")
@@ -130,6 +135,8 @@ class Shell:
             self._show(run_query(self.backend, text, graphs=self.graphs))
         except KgkitError as exc:
             self.write(f"Error: {exc}\n")
+        except KeyboardInterrupt:  # Ctrl-C stops a long query and output, not the session
+            self.write("\n(interrupted)\n")
 
     def command(self, line: str) -> bool | None:
         try:

@@ -314,3 +314,22 @@ def test_shell_on_a_pseudo_terminal_keeps_history(ws):
         "ASK { t:rowing ?p ?o } ;",
         ":quit",
     ]
+
+
+def test_shell_survives_ctrl_c(ws):
+    from kgkit.query import connect
+    from kgkit.shell import Shell
+
+    lines = iter(["SELECT * WHERE {", KeyboardInterrupt, "ASK { t:rowing ?p ?o } ;", None])
+    shown = []
+
+    def read(prompt):
+        shown.append(prompt)
+        item = next(lines)
+        if item is KeyboardInterrupt:
+            raise KeyboardInterrupt
+        return item
+
+    with connect(ws) as backend:
+        Shell(backend, read, shown.append).loop()
+    assert shown == ["kgkit> ", "  ...> ", "\n(cancelled)\n", "kgkit> ", "true\n", "kgkit> "]
