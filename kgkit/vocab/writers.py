@@ -11,7 +11,7 @@ import json
 import os
 import re
 import shutil
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from json.encoder import encode_basestring as _js
 from pathlib import Path
 
@@ -190,8 +190,12 @@ def report_text(name: str, report: dict) -> str:
     return "\n".join(lines) + "\n"
 
 
-def write_build(build_dir: Path, files: dict[str, str]) -> Path:
-    """Write ``files`` (name -> text) into ``build_dir`` atomically: temp folder, then rename."""
+def write_build(build_dir: Path, files: dict[str, str | Callable[[], str]]) -> Path:
+    """Write ``files`` into ``build_dir`` atomically: temp folder, then rename.
+
+    ``files`` maps a name to its text, or to a function making it (called just
+    before the file is written, so that only one text is held at a time).
+    """
     build_dir = Path(build_dir)
     build_dir.parent.mkdir(parents=True, exist_ok=True)
     tmp = build_dir.with_name(f".{build_dir.name}.tmp-{os.getpid()}")
@@ -202,8 +206,12 @@ def write_build(build_dir: Path, files: dict[str, str]) -> Path:
     tmp.mkdir()
     try:
         for name in sorted(files):
+            text = files[name]
+            if callable(text):
+                text = text()
             with open(tmp / name, "w", encoding="utf-8", newline="\n") as fh:
-                fh.write(files[name])
+                fh.write(text)
+            del text
         if build_dir.exists():
             os.replace(build_dir, old)
         os.replace(tmp, build_dir)
