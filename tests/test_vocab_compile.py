@@ -188,3 +188,26 @@ def test_topics_yaml_holds_the_same_topics(workspace):
     data = yaml.safe_load((res.output / "topics.yaml").read_text(encoding="utf-8"))
     assert {r["id"]: r for r in data["topics"]} == t
     assert data["scheme"]["iri"] == "http://example.org/vocab/sport"
+
+
+def test_thin_topics_by_instances_and_by_popularity(workspace):
+    folder = DATA / "vocab-thin-topics"
+    import_files(workspace, [str(folder / "graph.nt")], ImportOptions(graph="tidewell"))
+    for name in ("instances.yaml", "popular.yaml"):
+        shutil.copy(folder / name, workspace.vocab_dir / name)
+    res = compile_vocabulary(workspace, workspace.vocab_dir / "instances.yaml")
+    # rowing has two clips typed with it; the others fewer
+    assert res.summary["topics"] == 1
+    assert {d["id"]: d["reason"] for d in res.report["dropped_topics"]} == {
+        "canoe-polo": "fewer-instances-than-min",
+        "kite-flying": "fewer-instances-than-min",
+        "sport": "fewer-instances-than-min",
+    }
+    # the built-in popularity template counts statements pointing at each topic:
+    # rowing 3 (two types, one mention), canoe polo 1, kite flying none
+    res = compile_vocabulary(workspace, workspace.vocab_dir / "popular.yaml")
+    assert {d["id"]: d["reason"] for d in res.report["dropped_topics"]} == {
+        "canoe-polo": "below-min-popularity",
+        "kite-flying": "below-min-popularity",
+    }
+    assert res.summary["topics"] == 1
