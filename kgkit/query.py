@@ -182,7 +182,7 @@ def _prologue(ws: Workspace, text: str) -> str:
 class QueryResult:
     """What a query gave. Rows and triples are iterators: they stream, once."""
 
-    kind: str  # "select" | "ask" | "graph"
+    kind: str  # "select" | "ask" | "graph" | "update" (an allowed update that ran)
     variables: list[str] = field(default_factory=list)
     rows: Iterator[tuple] = field(default_factory=lambda: iter(()))
     boolean: bool | None = None
@@ -265,7 +265,7 @@ class EmbeddedBackend(Backend):
                 self.store.update(text, prefixes=dict(self.ws.prefixes))
             except SyntaxError as exc:
                 raise syntax_error(text, exc, "update") from None
-            return QueryResult(kind="ask", boolean=True)
+            return QueryResult(kind="update")
         dataset = [ox.NamedNode(g) for g in self.content_graphs(graphs)]
         try:
             res = self.store.query(
@@ -655,6 +655,9 @@ def write_result(
     """
     if fmt not in FORMATS:
         raise KgkitError(f"unknown output format {fmt!r} (formats: {', '.join(FORMATS)})")
+    if res.kind == "update":
+        out.write("update applied\n")
+        return
     if res.kind == "graph":
         if fmt in ("json", "csv", "tsv"):
             raise KgkitError(

@@ -333,3 +333,18 @@ def test_shell_survives_ctrl_c(ws):
     with connect(ws) as backend:
         Shell(backend, read, shown.append).loop()
     assert shown == ["kgkit> ", "  ...> ", "\n(cancelled)\n", "kgkit> ", "true\n", "kgkit> "]
+
+
+def test_allowed_update_from_the_command_line(tmp_path):
+    ws = make_explore_workspace(tmp_path / "ws")
+    runner = CliRunner()
+
+    def run(*args):
+        return runner.invoke(cli, ["--workspace", str(ws.root), *args])
+
+    graph = run("query", "SELECT ?g WHERE { GRAPH ?g { t:sailing ?p ?o } }", "--format", "tsv")
+    content = graph.output.splitlines()[1]
+    update = f"INSERT DATA {{ GRAPH {content} {{ t:surfing skos:broader t:water-sports }} }}"
+    r = run("query", update, "--allow-update")
+    assert (r.exit_code, r.output) == (0, "update applied\n")
+    assert "t:surfing" in run("tree", "t:water-sports", "--depth", "1").output

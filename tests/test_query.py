@@ -96,7 +96,10 @@ def test_allowed_update_runs_on_a_writable_store(tmp_path):
     ws = make_explore_workspace(tmp_path / "ws")
     g = f"GRAPH <{_content(ws, 'other')}>"
     with connect(ws, write=True) as b:
-        run_query(b, f"INSERT DATA {{ {g} {{ t:x skos:prefLabel 'x'@en }} }}", allow_update=True)
+        res = run_query(
+            b, f"INSERT DATA {{ {g} {{ t:x skos:prefLabel 'x'@en }} }}", allow_update=True
+        )
+        assert res.kind == "update"
     assert len(_select(ws, "SELECT ?s WHERE { ?s skos:prefLabel 'x'@en }")[1]) == 1
     with connect(ws) as b, pytest.raises(QueryError, match="read-only"):
         run_query(b, "DROP ALL", allow_update=True)
