@@ -214,6 +214,12 @@ def test_search_box_filters_the_tree_and_opens_a_topic(browser, demo_workspace, 
     browser.type_text("polo")
     browser.wait_for("document.getElementById('search-status').textContent.includes('match')")
     assert browser.evaluate(VISIBLE_HITS) == ["canoe-polo", "paddleboard-polo"]
+    # the English labels match, so they are marked in place (not the German ones named)
+    marks = (
+        "Array.from(document.querySelectorAll('#tree li.hit .name mark')).map(m => m.textContent)"
+    )
+    assert browser.evaluate(marks) == ["polo", "polo"]
+    assert browser.evaluate("document.querySelector('#tree li.hit .hint').textContent") == ""
     browser.press("Enter", 13)
     browser.wait_for("document.querySelector('#tree li.current') !== null")
     shot = browser.send("Page.captureScreenshot", format="png")["data"]

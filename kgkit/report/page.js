@@ -126,7 +126,10 @@
     return frag;
   }
 
+  // the shown label first: a hit there is marked in place, not named in a hint
+  const shownKey = new Map(topics.map((t) => [t.id, key(label(t))]));
   function matchOf(id, q) {
+    if (shownKey.get(id).includes(q)) return [label(byId.get(id)), "label"];
     for (const [text, k, what] of names.get(id)) if (k.includes(q)) return [text, what];
     return null;
   }
