@@ -7,7 +7,7 @@ from pathlib import Path
 from kgkit.ingest import ImportOptions, import_files
 from kgkit.workspace import init_workspace
 
-DATA = Path(__file__).resolve().parent / "data" / "explore-basic"
+DATA = Path(__file__).resolve().parent / "data" / "explore-multi-parent-and-cycle"
 T = "http://example.org/t/"
 
 
