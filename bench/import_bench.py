@@ -84,6 +84,9 @@ def _measure(mode: str, dump: Path, extra: list[str] | None = None) -> dict:
         raise SystemExit(f"{mode} on {dump} failed (exit {proc.returncode})")
     res = json.loads(stdout.strip().splitlines()[-1])
     res["peak_rss_mb"] = usage.ru_maxrss / 1024  # Linux: kilobytes
+    # CPU seconds of the run, its worker processes included (they are waited for): with
+    # wall seconds, it tells whether a parallel run lacked work or lacked free cores
+    res["cpu_seconds"] = usage.ru_utime + usage.ru_stime
     # the machine is shared: say how busy it was (1-minute load average after the run)
     res["load_average"] = os.getloadavg()[0]
     return res
@@ -202,12 +205,13 @@ def main(argv: list[str] | None = None) -> int:
         ),
     ]
     print()
-    print("| dump | triples | loader | seconds | triples/s | peak RSS MB | load avg |")
-    print("|---|---:|---|---:|---:|---:|---:|")
+    print("| dump | triples | loader | seconds | CPU s | triples/s | peak RSS MB | load avg |")
+    print("|---|---:|---|---:|---:|---:|---:|---:|")
     for r in results:
         print(
             f"| {r['dump']} | {r['triples']:,} | {r['mode']} | {r['seconds']:.2f} | "
-            f"{r['throughput']:,.0f} | {r['peak_rss_mb']:,.0f} | {r['load_average']:.1f} |"
+            f"{r['cpu_seconds']:.1f} | {r['throughput']:,.0f} | {r['peak_rss_mb']:,.0f} | "
+            f"{r['load_average']:.1f} |"
         )
     print()
     print("| ratio | value | met |")
