@@ -481,5 +481,9 @@ def run_template(
     if limit_n is not None and limit_n < 0:
         raise ParameterError(f"parameter {w.limit!r} must not be negative")
     reached = walk_links(((r[i], r[j]) for r in res.rows), values[w.start], limit_n)
-    rows = ((node, ox.Literal(str(d), datatype=XSD_INTEGER)) for node, d in reached)
+    depths: dict[int, ox.Literal] = {}
+    rows = (
+        (node, depths.get(d) or depths.setdefault(d, ox.Literal(str(d), datatype=XSD_INTEGER)))
+        for node, d in reached
+    )
     return QueryResult(kind="select", variables=["item", "depth"], rows=iter(rows))
