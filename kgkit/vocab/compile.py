@@ -130,8 +130,8 @@ def build_vocabulary(
             id=tid,
             source=src,
             graphs=set(f.graphs.get(src, ())),
-            labels=list(f.labels.get(src, ())),
-            aliases=list(f.aliases.get(src, ())),
+            labels=f.labels.get(src) or [],  # the fetched lists are ours to change
+            aliases=f.aliases.get(src) or [],
             notations=set(f.notations.get(src, ())),
             same_as=set(f.same_as.get(src, ())),
         )

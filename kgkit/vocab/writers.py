@@ -29,9 +29,14 @@ __all__ = [
 LEXICON_HEADER = ("alias", "match_key", "topic", "language", "kind", "shared_by")
 
 
+# one encoder for every record: json.dumps with options builds a new one per call
+_encode = json.JSONEncoder(ensure_ascii=False, sort_keys=True).encode
+
+
 def jsonl_text(records: list[dict]) -> str:
     """One topic per line, keys sorted, UTF-8 without ASCII escapes."""
-    return "".join(json.dumps(r, sort_keys=True, ensure_ascii=False) + "\n" for r in records)
+    enc = _encode
+    return "".join([enc(r) + "\n" for r in records])
 
 
 # characters PyYAML refuses inside a document, even quoted (YAML 1.1 printable set)
