@@ -7,6 +7,7 @@ for bad arguments. ``--debug`` shows the traceback instead.
 
 from __future__ import annotations
 
+import importlib
 import sys
 
 import click
@@ -19,7 +20,14 @@ __all__ = ["cli", "main"]
 
 class _Group(click.Group):
     def list_commands(self, ctx):
-        return list(self.commands)  # in the order they were added: the job's order
+        return list(COMMAND_MODULES)
+
+    def get_command(self, ctx, name):
+        module_name = COMMAND_MODULES.get(name)
+        if module_name is None:
+            return None
+        module = importlib.import_module(f"kgkit.cli.{module_name}")
+        return next((c for c in module.COMMANDS if c.name == name), None)
 
     def invoke(self, ctx):
         # the one place where a user's error becomes one line and exit code 1
@@ -53,29 +61,31 @@ def cli(ctx: click.Context, workspace: str | None, debug: bool) -> None:
     ctx.obj["debug"] = debug
 
 
-# Command modules, in the order their commands appear in `kgkit --help`.
-# Each module has a COMMANDS list; add a new module here.
-_MODULES = (
-    "workspace_cmds",
-    "ingest_cmds",
-    "explore_cmds",
-    "vocab_cmds",
-    "release_cmds",
-    "review_cmds",
-    "demo_cmds",
-)
-
-
-def _register() -> None:
-    import importlib
-
-    for name in _MODULES:
-        module = importlib.import_module(f"kgkit.cli.{name}")
-        for command in module.COMMANDS:
-            cli.add_command(command)
-
-
-_register()
+# Command name -> the module of kgkit/cli/ that defines it, in `kgkit --help` order.
+# Only the module of the command being run is imported, so that a quick command
+# does not pay for loading the compiler. tests/test_cli_registry.py checks that
+# this table and the modules' COMMANDS lists agree.
+COMMAND_MODULES = {
+    "init": "workspace_cmds",
+    "import": "ingest_cmds",
+    "graphs": "ingest_cmds",
+    "slice": "ingest_cmds",
+    "query": "explore_cmds",
+    "templates": "explore_cmds",
+    "run": "explore_cmds",
+    "show": "explore_cmds",
+    "find": "explore_cmds",
+    "tree": "explore_cmds",
+    "shell": "explore_cmds",
+    "compile": "vocab_cmds",
+    "release": "release_cmds",
+    "verify": "release_cmds",
+    "diff": "release_cmds",
+    "lint": "release_cmds",
+    "report": "review_cmds",
+    "probe": "review_cmds",
+    "demo": "demo_cmds",
+}
 
 
 def main() -> None:
