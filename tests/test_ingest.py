@@ -405,3 +405,19 @@ def test_bounded_windows_after_errors_lose_nothing(tmp_path, workspace, monkeypa
     expected = MESSY_ALL if keep == "all" else {**MESSY_ALL, "loaded": 10, "filtered": 2}
     assert _counts(s) == expected
     assert set(_rejects(tmp_path / "r.txt")) == MESSY_BAD_LINES
+
+
+def test_several_inputs_make_several_graphs_and_refuse_one_rejects_file(workspace, tmp_path):
+    a, b = tmp_path / "alpha.nt", tmp_path / "beta.nt.gz"
+    a.write_text(CLEAN, encoding="utf-8")
+    b.write_bytes(gzip.compress(CLEAN.encode()))
+    with pytest.raises(KgkitError, match="--rejects names one file"):
+        import_files(
+            workspace, [str(a), str(b)], ImportOptions(on_error="skip", rejects=tmp_path / "r")
+        )
+    summaries = import_files(workspace, [str(a), str(b)], ImportOptions())
+    assert [s.graph for s in summaries] == ["alpha", "beta"]
+    with open_store(workspace.store_path) as store:
+        assert _content(store, "alpha") == _content(store, "beta")
+    with pytest.raises(KgkitError, match="both import into graph 'alpha'"):
+        import_files(workspace, [str(a), str(tmp_path / "alpha.nt")], ImportOptions())
