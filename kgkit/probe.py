@@ -24,7 +24,6 @@ aliases behind them can be written out as curation edits that remove them.
 from __future__ import annotations
 
 import csv
-import json
 import re
 import unicodedata
 from collections.abc import Iterable
@@ -35,6 +34,7 @@ import ahocorasick_rs
 import yaml
 
 from kgkit.errors import KgkitError
+from kgkit.vocab.writers import read_topics
 
 __all__ = [
     "DEFAULT_THRESHOLD",
@@ -249,22 +249,6 @@ class Lexicon:
         return hits
 
 
-def _read_topics(path: Path) -> dict[str, dict]:
-    topics: dict[str, dict] = {}
-    if not path.is_file():
-        return topics
-    with open(path, encoding="utf-8") as fh:
-        for n, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                obj = json.loads(line)
-                topics[obj["id"]] = obj
-            except (json.JSONDecodeError, KeyError, TypeError) as exc:
-                raise ProbeError(f"{path}:{n}: not a topic record ({exc})") from None
-    return topics
-
-
 def load_lexicon(folder: Path | str) -> Lexicon:
     """Read ``lexicon.tsv`` (and ``topics.jsonl`` for labels and parents) of a release or build."""
     folder = Path(folder)
@@ -288,7 +272,7 @@ def load_lexicon(folder: Path | str) -> Lexicon:
             if not row["match_key"]:
                 raise ProbeError(f"{path}:{n}: empty match key")
             rows.append(row)
-    return Lexicon(folder, rows, _read_topics(folder / "topics.jsonl"))
+    return Lexicon(folder, rows, read_topics(folder / "topics.jsonl", missing_ok=True))
 
 
 def probe_text(lexicon: Lexicon | Path | str, text: str) -> list[Hit]:

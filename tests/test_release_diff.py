@@ -7,7 +7,7 @@ import json
 import pytest
 
 from kgkit.release.changelog import changelog_data, changelog_markdown
-from kgkit.release.diffing import DiffError, diff_folders, diff_topics, read_topics
+from kgkit.release.diffing import DiffError, diff_folders, diff_topics
 from kgkit.release.versioning import (
     NothingChangedError,
     Version,
@@ -15,6 +15,7 @@ from kgkit.release.versioning import (
     list_releases,
     next_version,
 )
+from kgkit.vocab.writers import BuildFileError, read_topics
 
 
 def topic(tid, en, parents=(), aliases=None, **kw):
@@ -202,7 +203,7 @@ def test_diff_folders_and_errors(tmp_path):
     assert 'relabelled sailing [en]: "sailing" -> "sail racing"  (graph)' in d.to_text()
     (tmp_path / "bad").mkdir()
     (tmp_path / "bad" / "topics.jsonl").write_text('{"id": "a"}\n{"id": \n')
-    with pytest.raises(DiffError, match=r"bad/topics.jsonl:2: not a JSON object"):
+    with pytest.raises(BuildFileError, match=r"bad/topics.jsonl:2: not a JSON object"):
         read_topics(tmp_path / "bad" / "topics.jsonl")
     with pytest.raises(DiffError, match="no topics.jsonl in it"):
         diff_folders(tmp_path, b)

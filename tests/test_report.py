@@ -12,6 +12,7 @@ import pytest
 
 from kgkit.cli import cli
 from kgkit.report import ReviewError, load_review, render_page, write_page
+from kgkit.vocab.writers import BuildFileError
 
 
 class _Scan(HTMLParser):
@@ -156,7 +157,7 @@ def test_bad_targets(tmp_path):
     with pytest.raises(ReviewError, match="not a release or build folder"):
         load_review(tmp_path)
     (tmp_path / "topics.jsonl").write_text('{"id": "a"}\nnot json\n', encoding="utf-8")
-    with pytest.raises(ReviewError, match=r"topics.jsonl:2: malformed topic record"):
+    with pytest.raises(BuildFileError, match=r"topics.jsonl:2: not a JSON object"):
         load_review(tmp_path)
 
 

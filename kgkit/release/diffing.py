@@ -33,6 +33,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from kgkit.errors import KgkitError
+from kgkit.vocab.writers import read_topics
 
 __all__ = [
     "Change",
@@ -40,7 +41,6 @@ __all__ = [
     "VocabDiff",
     "diff_folders",
     "diff_topics",
-    "read_topics",
 ]
 
 _KIND_ORDER = (
@@ -173,30 +173,6 @@ def describe(c: Change) -> str:
     else:
         what = f"replacement of {c.topic}: {c.before or '(nothing)'} -> {c.after or '(nothing)'}"
     return f"{what}  ({c.cause})"
-
-
-def read_topics(path: Path) -> dict[str, dict]:
-    """Topics of a ``topics.jsonl`` file by id; a bad line raises with file and line."""
-    path = Path(path)
-    out: dict[str, dict] = {}
-    try:
-        fh = path.open(encoding="utf-8")
-    except FileNotFoundError:
-        raise DiffError(f"{path}: no such topic file") from None
-    with fh:
-        for n, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                t = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise DiffError(f"{path}:{n}: not a JSON object ({exc.msg})") from None
-            if not isinstance(t, dict) or not isinstance(t.get("id"), str):
-                raise DiffError(f"{path}:{n}: a topic needs a string 'id'")
-            if t["id"] in out:
-                raise DiffError(f"{path}:{n}: topic id {t['id']!r} appears twice")
-            out[t["id"]] = t
-    return out
 
 
 # --- attribution ---------------------------------------------------------------

@@ -28,6 +28,7 @@ from importlib import resources
 from pathlib import Path
 
 from kgkit.errors import KgkitError
+from kgkit.vocab.writers import read_topics
 
 __all__ = ["Review", "ReviewError", "load_review", "render_page", "write_page"]
 
@@ -82,19 +83,7 @@ def _read_json(path: Path) -> dict | None:
 
 
 def _read_topics(path: Path) -> list[dict]:
-    topics = []
-    with open(path, encoding="utf-8") as fh:
-        for n, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                obj = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise ReviewError(f"{path}:{n}: malformed topic record ({exc.msg})") from None
-            if not isinstance(obj, dict) or not isinstance(obj.get("id"), str):
-                raise ReviewError(f"{path}:{n}: a topic record needs a string 'id'")
-            topics.append({k: obj.get(k) for k in _TOPIC_KEYS})
-    return topics
+    return [{k: t.get(k) for k in _TOPIC_KEYS} for t in read_topics(path).values()]
 
 
 def _describe_changes(changes: list[dict]) -> list[str]:

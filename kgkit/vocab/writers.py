@@ -15,7 +15,11 @@ from collections.abc import Callable, Iterable
 from json.encoder import encode_basestring as _js
 from pathlib import Path
 
+from kgkit.errors import KgkitError
+
 __all__ = [
+    "BuildFileError",
+    "read_topics",
     "LEXICON_HEADER",
     "jsonl_text",
     "lexicon_text",
@@ -227,3 +231,38 @@ def write_build(build_dir: Path, files: dict[str, str | Callable[[], str]]) -> P
         raise
     shutil.rmtree(old, ignore_errors=True)
     return build_dir
+
+
+class BuildFileError(KgkitError):
+    """A build or release file that cannot be read back."""
+
+
+def read_topics(path: Path | str, missing_ok: bool = False) -> dict[str, dict]:
+    """The topics of a ``topics.jsonl`` file by id, in file order.
+
+    A malformed line raises :class:`BuildFileError` naming the file and line.
+    """
+    path = Path(path)
+    out: dict[str, dict] = {}
+    try:
+        fh = path.open(encoding="utf-8")
+    except FileNotFoundError:
+        if missing_ok:
+            return out
+        raise BuildFileError(f"{path}: no such topic file") from None
+    with fh:
+        for n, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                t = json.loads(line)
+            except json.JSONDecodeError as exc:
+                raise BuildFileError(f"{path}:{n}: not a JSON object ({exc.msg})") from None
+            except UnicodeDecodeError:
+                raise BuildFileError(f"{path}:{n}: not UTF-8 text") from None
+            if not isinstance(t, dict) or not isinstance(t.get("id"), str):
+                raise BuildFileError(f"{path}:{n}: a topic needs a string 'id'")
+            if t["id"] in out:
+                raise BuildFileError(f"{path}:{n}: topic id {t['id']!r} appears twice")
+            out[t["id"]] = t
+    return out
