@@ -434,7 +434,7 @@ _OPENINGS = [
 ]
 _SENTENCES = [
     "{person} of {town} spent the morning on {a}, then turned to {b}.",
-    "In {town}, the talk of the harbour was {a}; some said {b} was more fun.",
+    "In {town}, the news of the harbour was {a}; some said {b} was more fun.",
     "{person} says {a} is best learnt from a neighbour, and {b} from a book.",
     "The club in {town} runs evenings of {a} and weekend activities for children.",
     "Our reporter watched {a} at close range and left with notes on {b}.",
