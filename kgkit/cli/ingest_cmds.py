@@ -242,6 +242,17 @@ def graphs_command(ctx, as_json):
     default=None,
     help="Worker processes parsing and slicing. Default: the number of cores.",
 )
+@click.option(
+    "--engine",
+    type=click.Choice(["local", "spark"]),
+    default="local",
+    show_default=True,
+    help="local: worker processes on this machine; spark: Apache Spark (the spark extra).",
+)
+@click.option(
+    "--spark-master",
+    help="With --engine spark: the Spark master URL (default local[JOBS]).",
+)
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 @click.pass_context
@@ -257,6 +268,8 @@ def slice_command(
     on_error,
     rejects,
     jobs,
+    engine,
+    spark_master,
     as_json,
     quiet,
 ):
@@ -292,6 +305,8 @@ def slice_command(
             rejects=rejects,
             jobs=jobs or os.cpu_count() or 1,
             progress=bar,
+            engine=engine,
+            spark_master=spark_master,
         )
     finally:
         if bar:

@@ -7,7 +7,8 @@ closure needs every parent edge first, so that case reads the input twice: pass 
 the parent edges, pass 2 writes the statements about the entities found.
 
 Parsing and slicing are the import's own (:func:`kgkit.ingest.lines.process_chunk`), in
-worker processes with ``jobs`` > 1, so a slice keeps exactly what ``kgkit import`` with the
+worker processes with ``jobs`` > 1 or on Apache Spark (``engine="spark"``,
+:mod:`kgkit.ingest.slice_spark`), so a slice keeps exactly what ``kgkit import`` with the
 same options would load. Statements are written as N-Triples in input order, the same bytes
 for any number of workers; graph names of N-Quads are dropped, as an import folds them;
 duplicates are kept; blank node labels are prefixed per input file so that files do not
@@ -17,6 +18,7 @@ to a temporary file and renamed into place: a failed slice leaves no partial out
 
 from __future__ import annotations
 
+import contextlib
 import gzip
 import os
 import tempfile
@@ -78,14 +80,34 @@ def reachable_from(roots: set[str], edges: dict[str, set[str]]) -> set[str]:
     return seen
 
 
-def _chunks(label: str):
-    source = open_source(label)
-    # chunks of whole lines, the same whatever the number of workers
-    return source, iter_byte_chunks(source.stream, _lines.CHUNK_BYTES)
+class _LocalEngine:
+    """Chunks of a file processed in ``jobs`` local worker processes."""
+
+    def __init__(self, jobs: int):
+        self.jobs = jobs
+
+    @contextlib.contextmanager
+    def results(self, label: str, spec: ChunkSpec, progress=None, count=lambda: 0):
+        source = open_source(label)
+        # chunks of whole lines, the same whatever the number of workers
+        it = process_chunks(spec, iter_byte_chunks(source.stream, _lines.CHUNK_BYTES), self.jobs)
+
+        def tick():
+            if progress:
+                progress(Progress(label, source.bytes_read, source.size, count()))
+
+        try:
+            yield it, tick
+        finally:
+            it.close()
+            source.close()
+
+    def close(self) -> None:
+        pass
 
 
 def _parent_edges(
-    inputs: list[tuple[str, str]], parents: frozenset[str], ws: Workspace, jobs: int
+    inputs: list[tuple[str, str]], parents: frozenset[str], ws: Workspace, engine
 ) -> dict[str, set[str]]:
     """Pass 1: parent -> children over every input (bad lines are reported by pass 2)."""
     edges: dict[str, set[str]] = defaultdict(set)
@@ -93,16 +115,11 @@ def _parent_edges(
         spec = ChunkSpec(
             fmt, Slice(predicates=parents), ws if fmt == "records" else None, raw_ok=False
         )
-        source, chunks = _chunks(label)
-        results = process_chunks(spec, chunks, jobs)
-        try:
+        with engine.results(label, spec) as (results, _tick):
             for res in results:
                 for t in ox.parse(input=res.text, format=ox.RdfFormat.N_TRIPLES):
                     if isinstance(t.object, ox.NamedNode):
                         edges[t.object.value].add(t.subject.value)
-        finally:
-            results.close()
-            source.close()
     return edges
 
 
@@ -117,6 +134,8 @@ def slice_dump(
     rejects: Path | None = None,
     jobs: int = 1,
     progress: Callable[[Progress], None] | None = None,
+    engine: str = "local",
+    spark_master: str | None = None,
 ) -> SliceSummary:
     """Write the statements of ``inputs`` that ``slice`` keeps to the N-Triples file ``output``.
 
@@ -124,6 +143,10 @@ def slice_dump(
     them through the profile's parent predicates. ``output`` ending in ``.gz`` is
     written gzip-compressed. Returns a summary; raises :class:`ParseError` on the first
     bad line unless ``on_error`` is ``"skip"``.
+
+    ``engine="spark"`` parses and slices on Apache Spark (``spark_master``, default
+    ``local[jobs]``; needs the ``spark`` extra) and writes the same bytes as the local
+    engine.
     """
     t0 = time.perf_counter()
     if not inputs:
@@ -141,14 +164,30 @@ def slice_dump(
             raise KgkitError(f"{label}: no such file")
     if roots and "-" in inputs:
         raise KgkitError("-: --roots reads the input twice, so it cannot come from standard input")
-    output = Path(output)
+    if engine not in ("local", "spark"):
+        raise KgkitError(f"--engine takes 'local' or 'spark', not {engine!r}")
+    if engine == "spark":
+        from kgkit.ingest.slice_spark import SparkEngine
+
+        runner = SparkEngine(inputs, spark_master or f"local[{max(1, jobs)}]")
+    else:
+        runner = _LocalEngine(jobs)
+    try:
+        return _slice(
+            ws, inputs, formats, Path(output), slice, roots, on_error, rejects, runner, progress, t0
+        )
+    finally:
+        runner.close()
+
+
+def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine, progress, t0):
     summary = SliceSummary(output=str(output), files=list(inputs))
     pairs = list(zip(inputs, formats, strict=True))
     if roots:
         parents = frozenset(ws.profile["parent"])
         if not parents:
             raise KgkitError("--roots needs parent predicates in the workspace profile")
-        closure = reachable_from(set(roots), _parent_edges(pairs, parents, ws, jobs))
+        closure = reachable_from(set(roots), _parent_edges(pairs, parents, ws, engine))
         summary.entities = len(closure)
         slice = replace(slice, subjects=frozenset(closure))
     if rejects is None and on_error == "skip":
@@ -167,9 +206,7 @@ def slice_dump(
                 raw_ok=False,
                 blank_scope=f"f{n}x",
             )
-            source, chunks = _chunks(label)
-            results = process_chunks(spec, chunks, jobs)
-            try:
+            with engine.results(label, spec, progress, lambda: summary.read) as (results, tick):
                 for res in results:
                     for line, col, cause, text in res.rejects:
                         if on_error != "skip":
@@ -181,11 +218,7 @@ def slice_dump(
                     summary.filtered += res.filtered
                     summary.written += res.kept
                     out.write(res.text)
-                    if progress:
-                        progress(Progress(label, source.bytes_read, source.size, summary.read))
-            finally:
-                results.close()
-                source.close()
+                    tick()
         summary.read += summary.rejected
         if out is not raw:
             out.close()
