@@ -95,11 +95,18 @@ class SparkEngine:
 
     @contextlib.contextmanager
     def results(self, label: str, spec: ChunkSpec, progress=None, count=lambda: 0):
+        from pyspark import StorageLevel
+
         sc = self.spark.sparkContext
         rdd = sc.textFile(os.path.abspath(label), use_unicode=False).zipWithIndex()
-        # partitions come back in order, each one's chunks in line order
-        it = rdd.mapPartitions(_partition(spec)).toLocalIterator()
-        yield it, lambda: None
+        results = rdd.mapPartitions(_partition(spec)).persist(StorageLevel.MEMORY_AND_DISK)
+        try:
+            # compute every partition at once (toLocalIterator alone runs them one by one),
+            # then hand them over in order, each one's chunks in line order
+            results.count()
+            yield results.toLocalIterator(), lambda: None
+        finally:
+            results.unpersist()
 
     def close(self) -> None:
         if self._owned:
