@@ -60,7 +60,11 @@ def _flow(value) -> str:
             return "[" + ", ".join(map(_js, value)) + "]"
         return "[" + ", ".join(_flow(v) for v in value) + "]"
     if kind is dict:
-        return "{" + ", ".join(f"{_js(str(k))}: {_flow(value[k])}" for k in sorted(value)) + "}"
+        items = []
+        for k in sorted(value):
+            v = value[k]
+            items.append(_js(str(k)) + ": " + (_js(v) if type(v) is str else _flow(v)))
+        return "{" + ", ".join(items) + "}"
     if value is None:
         return "null"
     if kind is bool:
@@ -75,10 +79,31 @@ def yaml_text(scheme: dict, records: list[dict]) -> str:
     lines = ["# Compiled by kgkit; edit the spec or the curation file, not this file.", "scheme:"]
     lines.extend(f"  {k}: {_flow(scheme[k])}" for k in sorted(scheme))
     lines.append("topics:" if records else "topics: []")
+    # every record has the same keys: sort them and make the line heads once, and write
+    # the common values (strings, null, numbers, lists of strings) without a call to _flow
+    js, flow = _js, _flow
+    shape: tuple = ()
     for r in records:
-        keys = sorted(r)
-        lines.append(f"  - {keys[0]}: {_flow(r[keys[0]])}")
-        lines.extend(f"    {k}: {_flow(r[k])}" for k in keys[1:])
+        if tuple(r) != shape:
+            shape = tuple(r)
+            keys = sorted(r)
+            heads = [f"  - {keys[0]}: "] + [f"\n    {k}: " for k in keys[1:]]
+            pairs = list(zip(heads, keys, strict=True))
+        parts = []
+        for head, k in pairs:
+            v = r[k]
+            kind = type(v)
+            if kind is str:
+                parts.append(head + js(v))
+            elif v is None:
+                parts.append(head + "null")
+            elif kind is list and not v:
+                parts.append(head + "[]")
+            elif kind is dict and not v:
+                parts.append(head + "{}")
+            else:
+                parts.append(head + flow(v))
+        lines.append("".join(parts))
     text = "\n".join(lines) + "\n"
     # only strings can hold such characters, and they are all double-quoted here
     return _NON_PRINTABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
@@ -113,7 +138,7 @@ def skos_text(
     ``label_languages``: topic -> {language of ``labels`` -> language tag to write},
     for preferred labels lent by a fallback language (written with their own tag).
     """
-    by_id = {r["id"]: r for r in records}
+    iri_of = {r["id"]: r["iri"] for r in records}
     children: dict[str, list[str]] = {}
     for r in records:
         for p in r["parents"]:
@@ -129,42 +154,53 @@ def skos_text(
     ]
     if tops:
         out.append("    skos:hasTopConcept " + ",\n        ".join(f"<{t}>" for t in tops) + " .")
+    in_scheme = f"skos:inScheme <{scheme_iri}>"
+    top_of = f"skos:topConceptOf <{scheme_iri}>"
+    special = _TURTLE_SPECIAL.search
+    no_tags: dict[str, str] = {}
+
+    def lit(text: str, lang: str) -> str:  # _tl, with its common case inline
+        q = _tq(text) if special(text) else '"' + text + '"'
+        return q + "@" + lang if lang else q
+
     for r in records:
-        props = [f"skos:inScheme <{scheme_iri}>"]
-        tags = label_languages.get(r["id"], {})
+        props = [in_scheme]
+        tags = label_languages.get(r["id"], no_tags)
+        labels = r["labels"]
         seen = set()
-        for lang in sorted(r["labels"]):
-            lit = (r["labels"][lang], tags.get(lang, lang))
-            if lit not in seen:
-                seen.add(lit)
-                props.append("skos:prefLabel " + _tl(*lit))
-        for lang in sorted(r["aliases"]):
-            for a in r["aliases"][lang]:
+        for lang in sorted(labels):
+            pair = (labels[lang], tags.get(lang, lang))
+            if pair not in seen:
+                seen.add(pair)
+                props.append("skos:prefLabel " + lit(*pair))
+        aliases = r["aliases"]
+        for lang in sorted(aliases):
+            for a in aliases[lang]:
                 if (a, lang) not in seen:
-                    props.append("skos:altLabel " + _tl(a, lang))
+                    props.append("skos:altLabel " + lit(a, lang))
         if r["status"] == "active":
             if not r["parents"]:
-                props.append(f"skos:topConceptOf <{scheme_iri}>")
+                props.append(top_of)
             for p in r["parents"]:
-                props.append(f"skos:broader <{by_id[p]['iri']}>")
-            for c in sorted(children.get(r["id"], ())):
-                props.append(f"skos:narrower <{by_id[c]['iri']}>")
+                props.append(f"skos:broader <{iri_of[p]}>")
+            kids = children.get(r["id"])
+            if kids:
+                for c in sorted(kids):
+                    props.append(f"skos:narrower <{iri_of[c]}>")
         else:
             props.append("owl:deprecated true")
-            if r["replaced_by"] and r["replaced_by"] in by_id:
-                props.append(f"dct:isReplacedBy <{by_id[r['replaced_by']]['iri']}>")
+            if r["replaced_by"] and r["replaced_by"] in iri_of:
+                props.append(f"dct:isReplacedBy <{iri_of[r['replaced_by']]}>")
         if r["notation"] is not None:
             props.append("skos:notation " + _tq(r["notation"]))
-        out.append("")
-        out.append(f"<{r['iri']}> a skos:Concept ;")
-        out.append("    " + " ;\n    ".join(props) + " .")
+        out.append(f"\n<{r['iri']}> a skos:Concept ;\n    " + " ;\n    ".join(props) + " .")
     return "\n".join(out) + "\n"
 
 
 def lexicon_text(rows: Iterable[tuple]) -> str:
     """TSV: header, then (alias, match key, topic, language, kind, shared_by) rows."""
     lines = ["\t".join(LEXICON_HEADER)]
-    lines.extend("\t".join(str(x) for x in row) for row in rows)
+    lines.extend([f"{a}\t{k}\t{t}\t{lg}\t{kind}\t{n}" for a, k, t, lg, kind, n in rows])
     return "\n".join(lines) + "\n"
 
 
