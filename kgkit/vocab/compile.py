@@ -225,14 +225,19 @@ def build_vocabulary(
         if rules.max_depth is not None or rules.min_descendants is not None
         else None
     )
-    pruned = prune_topics(
-        active,
-        rules,
-        h0,
-        {tid: topics[tid].source for tid in active},
-        missing_drop,
-        {src: n for src, n in fetched.instances.items()},
-        popularity,
+    any_rule = missing_drop or rules.stop_topics or rules != type(rules)()
+    pruned = (
+        prune_topics(
+            active,
+            rules,
+            h0,
+            {tid: topics[tid].source for tid in active},
+            missing_drop,
+            {src: n for src, n in fetched.instances.items()},
+            popularity,
+        )
+        if any_rule
+        else {}  # no rule and nothing missing: nothing to judge
     )
     dropped.update(pruned)
     active -= set(pruned)

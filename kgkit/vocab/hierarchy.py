@@ -89,7 +89,11 @@ def restrict_to(
     parents: dict[str, list[str]] = {}
     reattached, new_roots = [], []
     for node in sorted(kept):
-        graph_ps = set(graph_parents.get(node, ()))
+        gp = graph_parents.get(node, ())
+        if type(gp) is list and len(gp) == 1 and gp[0] in kept and gp[0] != node:
+            parents[node] = [gp[0]]  # the common case: one parent, kept
+            continue
+        graph_ps = set(gp)
         graph_ps.discard(node) if node in graph_ps and len(graph_ps) > 1 else None
         ps = sorted(p for p in graph_ps if p in kept)
         if not ps and graph_ps:
