@@ -1,4 +1,4 @@
-"""``kgkit import`` and ``kgkit graphs``."""
+"""``kgkit import``, ``kgkit graphs`` and ``kgkit slice``."""
 
 from __future__ import annotations
 
@@ -42,6 +42,69 @@ class _Bar:
             click.echo("\r\033[K", err=True, nl=False)
 
 
+def _split(text: str | None) -> list[str] | None:
+    return [x.strip() for x in (text or "").split(",") if x.strip()] or None
+
+
+def _slicing_options(keep_default: str):
+    """--keep, --predicates, --languages: what an import or a slice keeps."""
+
+    def decorate(f):
+        f = click.option(
+            "--languages", help="Comma-separated languages to keep for tagged literals."
+        )(f)
+        f = click.option(
+            "--predicates", help="Comma-separated predicates (CURIEs or <IRIs>) to keep."
+        )(f)
+        return click.option(
+            "--keep",
+            type=click.Choice(["all", "profile"]),
+            default=keep_default,
+            show_default=True,
+            help="profile: keep only statements whose predicate is in the workspace profile.",
+        )(f)
+
+    return decorate
+
+
+def _error_options(rejects_default: str):
+    """--on-error and --rejects."""
+
+    def decorate(f):
+        f = click.option(
+            "--rejects",
+            type=click.Path(dir_okay=False, path_type=Path),
+            help=f"With --on-error skip: file for the bad statements (default {rejects_default}).",
+        )(f)
+        return click.option(
+            "--on-error",
+            type=click.Choice(["stop", "skip"]),
+            default="stop",
+            show_default=True,
+            help="stop: the first bad statement aborts; skip: set it aside and go on.",
+        )(f)
+
+    return decorate
+
+
+def _output_options(f):
+    """--json and --quiet."""
+    f = click.option("--quiet", "-q", is_flag=True, help="No progress display.")(f)
+    return click.option(
+        "--json", "as_json", is_flag=True, help="Print the summary as one JSON object."
+    )(f)
+
+
+def _jobs_option(what: str):
+    return click.option(
+        "--jobs",
+        "-j",
+        type=click.IntRange(min=1),
+        default=None,
+        help=f"Worker processes parsing and slicing {what}. Default: the number of cores.",
+    )
+
+
 @click.command("import")
 @click.argument("files", nargs=-1, required=True)
 @click.option("--graph", "-g", help="Graph to import into (default: from the file name).")
@@ -51,28 +114,8 @@ class _Bar:
     type=click.Choice(list(FORMATS)),
     help="Input format (default: from the extension). 'records' is entity-record JSON Lines.",
 )
-@click.option(
-    "--on-error",
-    type=click.Choice(["stop", "skip"]),
-    default="stop",
-    show_default=True,
-    help="stop: the first bad statement aborts the import; skip: set it aside and go on.",
-)
-@click.option(
-    "--rejects",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="With --on-error skip: file for the bad statements "
-    "(default .kgkit/rejects/GRAPH.rejects.txt).",
-)
-@click.option(
-    "--keep",
-    type=click.Choice(["all", "profile"]),
-    default="all",
-    show_default=True,
-    help="profile: keep only statements whose predicate is in the workspace profile.",
-)
-@click.option("--predicates", help="Comma-separated predicates (CURIEs or <IRIs>) to keep.")
-@click.option("--languages", help="Comma-separated languages to keep for tagged literals.")
+@_error_options(".kgkit/rejects/GRAPH.rejects.txt")
+@_slicing_options("all")
 @click.option(
     "--batch-size",
     type=int,
@@ -81,16 +124,8 @@ class _Bar:
     help="Statements loaded per batch: the memory budget (about 0.6 GB at the default).",
 )
 @click.option("--base", "base_iri", help="Base IRI for relative IRIs in Turtle and JSON-LD.")
-@click.option(
-    "--jobs",
-    "-j",
-    type=click.IntRange(min=1),
-    default=None,
-    help="Worker processes parsing and slicing line-based input "
-    "(N-Triples, N-Quads, entity records). Default: the number of cores.",
-)
-@click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
-@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@_jobs_option("line-based input (N-Triples, N-Quads, entity records)")
+@_output_options
 @click.pass_context
 def import_command(
     ctx,
@@ -121,12 +156,7 @@ def import_command(
         format=fmt,
         on_error=on_error,
         rejects=rejects,
-        slice=make_slice(
-            ws,
-            keep=keep,
-            predicates=[p for p in (predicates or "").split(",") if p.strip()] or None,
-            languages=[x for x in (languages or "").split(",") if x.strip()] or None,
-        ),
+        slice=make_slice(ws, keep=keep, predicates=_split(predicates), languages=_split(languages)),
         batch_size=batch_size,
         base_iri=base_iri,
         jobs=jobs or os.cpu_count() or 1,
@@ -209,39 +239,14 @@ def graphs_command(ctx, as_json):
     type=click.Choice(["nt", "nq", "records"]),
     help="Input format (default: from the extension).",
 )
-@click.option(
-    "--keep",
-    type=click.Choice(["all", "profile"]),
-    default="profile",
-    show_default=True,
-    help="profile: keep only statements whose predicate is in the workspace profile.",
-)
-@click.option("--predicates", help="Comma-separated predicates (CURIEs or <IRIs>) to keep.")
-@click.option("--languages", help="Comma-separated languages to keep for tagged literals.")
+@_slicing_options("profile")
 @click.option(
     "--roots",
     help="Comma-separated entities (CURIEs or <IRIs>): keep only statements about them and "
     "what reaches them through the profile's parent predicates (reads the input twice).",
 )
-@click.option(
-    "--on-error",
-    type=click.Choice(["stop", "skip"]),
-    default="stop",
-    show_default=True,
-    help="stop: the first bad statement aborts; skip: set it aside and go on.",
-)
-@click.option(
-    "--rejects",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="With --on-error skip: file for the bad statements (default OUTPUT.rejects.txt).",
-)
-@click.option(
-    "--jobs",
-    "-j",
-    type=click.IntRange(min=1),
-    default=None,
-    help="Worker processes parsing and slicing. Default: the number of cores.",
-)
+@_error_options("OUTPUT.rejects.txt")
+@_jobs_option("the input")
 @click.option(
     "--engine",
     type=click.Choice(["local", "spark"]),
@@ -253,8 +258,7 @@ def graphs_command(ctx, as_json):
     "--spark-master",
     help="With --engine spark: the Spark master URL (default local[JOBS]).",
 )
-@click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
-@click.option("--quiet", "-q", is_flag=True, help="No progress display.")
+@_output_options
 @click.pass_context
 def slice_command(
     ctx,
@@ -285,13 +289,8 @@ def slice_command(
     from kgkit.ingest.slice_dump import slice_dump
 
     ws = get_workspace(ctx)
-    sl = make_slice(
-        ws,
-        keep=keep,
-        predicates=[p for p in (predicates or "").split(",") if p.strip()] or None,
-        languages=[x for x in (languages or "").split(",") if x.strip()] or None,
-    )
-    root_iris = [ws.expand(r, where="--roots") for r in (roots or "").split(",") if r.strip()]
+    sl = make_slice(ws, keep=keep, predicates=_split(predicates), languages=_split(languages))
+    root_iris = [ws.expand(r, where="--roots") for r in _split(roots) or []]
     bar = _Bar() if (is_terminal() and not quiet and not as_json) else None
     try:
         s = slice_dump(
