@@ -2,7 +2,13 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
+import shutil
+import socket
+import subprocess
+import sys
+import time
 from pathlib import Path
 
 import pytest
@@ -56,3 +62,60 @@ def demo_workspace(tmp_path_factory):
     releases = sorted(p for p in (root / "vocab" / "tidewell").iterdir() if p.name[0].isdigit())
     (page,) = sorted(root.glob("*.html"))
     return {"root": root, "steps": steps, "releases": releases, "page": page}
+
+
+#: The SPARQL server the ``oxigraph`` package on PyPI ships (in the test extra).
+OXIGRAPH_SERVER = Path(sys.executable).with_name("oxigraph")
+
+
+@contextlib.contextmanager
+def served_store(store_path: Path, tmp: Path):
+    """Serve a copy of a store read-only on 127.0.0.1; yields the query URL.
+
+    Skips the test when the server is not installed next to this Python.
+    """
+    if not OXIGRAPH_SERVER.exists():
+        pytest.skip(f"no oxigraph server next to {sys.executable} (pip install oxigraph)")
+    copy = tmp / "served-store"
+    shutil.copytree(store_path, copy)
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    proc = subprocess.Popen(
+        [
+            str(OXIGRAPH_SERVER),
+            "serve-read-only",
+            "--location",
+            str(copy),
+            "--bind",
+            f"127.0.0.1:{port}",
+        ],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+    )
+    try:
+        deadline = time.monotonic() + 20
+        while True:
+            try:
+                socket.create_connection(("127.0.0.1", port), timeout=0.2).close()
+                break
+            except OSError:
+                if proc.poll() is not None or time.monotonic() > deadline:
+                    raise RuntimeError(f"server did not start: {proc.stderr.read()!r}") from None
+                time.sleep(0.1)
+        yield f"http://127.0.0.1:{port}/query"
+    finally:
+        proc.terminate()
+        proc.wait(timeout=10)
+
+
+def endpoint_workspace(ws, url: str, root: Path):
+    """A copy of workspace ``ws``'s settings in ``root`` that queries ``url`` instead."""
+    from kgkit.workspace import load_workspace
+
+    root.mkdir(parents=True, exist_ok=True)
+    text = (ws.root / "kgkit.yaml").read_text(encoding="utf-8")
+    (root / "kgkit.yaml").write_text(
+        text.replace("endpoint: null", f"endpoint: {url}"), encoding="utf-8"
+    )
+    return load_workspace(root)

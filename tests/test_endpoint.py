@@ -6,24 +6,17 @@ serve-read-only``), started here on 127.0.0.1 over a copy of the workspace store
 
 from __future__ import annotations
 
-import shutil
 import socket
-import subprocess
-import sys
 import threading
-import time
-from pathlib import Path
 
 import pytest
+from conftest import endpoint_workspace, served_store
 from test_query_support import make_explore_workspace
 
 from kgkit.entities import find_entities, show_entity, tree_of
 from kgkit.errors import KgkitError, QueryError
 from kgkit.query import EndpointBackend, connect, run_query
 from kgkit.templates import list_templates, run_template
-from kgkit.workspace import load_workspace
-
-SERVER = Path(sys.executable).with_name("oxigraph")
 
 
 def _free_port() -> int:
@@ -32,43 +25,12 @@ def _free_port() -> int:
         return s.getsockname()[1]
 
 
-def _with_endpoint(ws, url: str, root: Path):
-    root.mkdir(parents=True)
-    text = (ws.root / "kgkit.yaml").read_text(encoding="utf-8")
-    text = text.replace("endpoint: null", f"endpoint: {url}")
-    (root / "kgkit.yaml").write_text(text, encoding="utf-8")
-    return load_workspace(root)
-
-
 @pytest.fixture(scope="module")
 def pair(tmp_path_factory):
-    if not SERVER.exists():
-        pytest.skip(f"no oxigraph server next to {sys.executable} (pip install oxigraph)")
     base = tmp_path_factory.mktemp("ep")
     local = make_explore_workspace(base / "local")
-    copy = base / "served-store"
-    shutil.copytree(local.store_path, copy)
-    port = _free_port()
-    proc = subprocess.Popen(
-        [str(SERVER), "serve-read-only", "--location", str(copy), "--bind", f"127.0.0.1:{port}"],
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
-    )
-    try:
-        deadline = time.monotonic() + 20
-        while True:
-            try:
-                socket.create_connection(("127.0.0.1", port), timeout=0.2).close()
-                break
-            except OSError:
-                if proc.poll() is not None or time.monotonic() > deadline:
-                    raise RuntimeError(f"server did not start: {proc.stderr.read()!r}") from None
-                time.sleep(0.1)
-        remote = _with_endpoint(local, f"http://127.0.0.1:{port}/query", base / "remote")
-        yield local, remote
-    finally:
-        proc.terminate()
-        proc.wait(timeout=10)
+    with served_store(local.store_path, base) as url:
+        yield local, endpoint_workspace(local, url, base / "remote")
 
 
 def _params(name):
@@ -132,7 +94,7 @@ def test_endpoint_errors_are_one_line(pair):
             run_query(b, "DROP ALL", allow_update=True)
         with pytest.raises(QueryError, match="--allow-update"):
             run_query(b, "DROP ALL")
-    bad = _with_endpoint(
+    bad = endpoint_workspace(
         local, remote.config.endpoint.replace("/query", "/nowhere"), remote.root.parent / "bad"
     )
     with pytest.raises(QueryError) as err, connect(bad):
@@ -143,7 +105,7 @@ def test_endpoint_errors_are_one_line(pair):
 def test_endpoint_refused_and_silent(tmp_path):
     ws = make_explore_workspace(tmp_path / "ws")
     port = _free_port()
-    closed = _with_endpoint(ws, f"http://127.0.0.1:{port}/query", tmp_path / "closed")
+    closed = endpoint_workspace(ws, f"http://127.0.0.1:{port}/query", tmp_path / "closed")
     with pytest.raises(KgkitError, match="cannot reach the endpoint"), connect(closed):
         pass
     # a listener that accepts and never answers: a time-out, reported in one line
@@ -164,7 +126,7 @@ def test_endpoint_refused_and_silent(tmp_path):
     t = threading.Thread(target=accept, daemon=True)
     t.start()
     try:
-        silent = _with_endpoint(
+        silent = endpoint_workspace(
             ws, f"http://127.0.0.1:{sock.getsockname()[1]}/query", tmp_path / "silent"
         )
         with (
