@@ -32,7 +32,7 @@ class Fetched:
     parents: dict[str, list[str]] = field(default_factory=dict)  # every entity of the graph
     notations: dict[str, set[str]] = field(default_factory=dict)
     same_as: dict[str, set[str]] = field(default_factory=dict)
-    graphs: dict[str, set[str]] = field(default_factory=dict)
+    graphs: dict[str, frozenset[str]] = field(default_factory=dict)  # shared, never changed
     instances: Counter = field(default_factory=Counter)
 
 
@@ -148,9 +148,21 @@ def fetch_entities(
     wanted = set(sources)
     gnames = _graph_filter(backend, graphs)
     f = Fetched()
+    # most entities come from one graph: they share one frozenset per combination of graph
+    # names instead of a set each (200k small sets cost 1.4 s to make at 200k topics)
+    combos: dict[tuple, frozenset[str]] = {}
+
+    def with_graph(old: frozenset[str] | None, gname: str) -> frozenset[str]:
+        k = (old, gname)
+        c = combos.get(k)
+        if c is None:
+            c = combos[k] = frozenset((old or frozenset()) | {gname})
+        return c
 
     def note(gname, s):
-        f.graphs.setdefault(s, set()).add(gname)
+        old = f.graphs.get(s)
+        if old is None or gname not in old:
+            f.graphs[s] = with_graph(old, gname)
 
     def literals(p: str, into: dict, tag) -> None:
         # the hot loop of the fetch: kept flat on purpose
@@ -159,10 +171,8 @@ def fetch_entities(
         for gname, s, o in scan_predicate(backend, p, gnames):
             if s in wanted and type(o) is Literal:
                 g = graphs_of.get(s)
-                if g is None:
-                    graphs_of[s] = {gname}
-                elif gname not in g:
-                    g.add(gname)
+                if g is None or gname not in g:
+                    graphs_of[s] = with_graph(g, gname)
                 lang = o.language
                 item = (lang.lower() if lang else "", o.value, tag)
                 lst = into.get(s)
