@@ -119,3 +119,23 @@ def endpoint_workspace(ws, url: str, root: Path):
         text.replace("endpoint: null", f"endpoint: {url}"), encoding="utf-8"
     )
     return load_workspace(root)
+
+
+def rdflib_graph(statements):
+    """An rdflib graph (for ``rdflib.compare.isomorphic``) from pyoxigraph triples or quads."""
+    import pyoxigraph as ox
+    from rdflib import BNode, Graph, Literal, URIRef
+
+    def term(t):
+        if isinstance(t, ox.NamedNode):
+            return URIRef(t.value)
+        if isinstance(t, ox.BlankNode):
+            return BNode(t.value)
+        if t.language:
+            return Literal(t.value, lang=t.language)
+        return Literal(t.value, datatype=URIRef(t.datatype.value))
+
+    g = Graph()
+    for t in statements:
+        g.add((term(t.subject), term(t.predicate), term(t.object)))
+    return g

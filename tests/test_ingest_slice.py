@@ -8,8 +8,7 @@ import json
 
 import pyoxigraph as ox
 import pytest
-from conftest import DATA
-from rdflib import BNode, Graph, Literal, URIRef
+from conftest import DATA, rdflib_graph
 from rdflib.compare import isomorphic
 
 from kgkit.errors import ParseError
@@ -20,22 +19,6 @@ MESSY = DATA / "ingest-messy" / "messy.nt"
 SKOS = "http://www.w3.org/2004/02/skos/core#"
 RDFS = "http://www.w3.org/2000/01/rdf-schema#"
 E = "http://example.org/e/"
-
-
-def _rdflib(triples) -> Graph:
-    def term(t):
-        if isinstance(t, ox.NamedNode):
-            return URIRef(t.value)
-        if isinstance(t, ox.BlankNode):
-            return BNode(t.value)
-        if t.language:
-            return Literal(t.value, lang=t.language)
-        return Literal(t.value, datatype=URIRef(t.datatype.value))
-
-    g = Graph()
-    for t in triples:
-        g.add((term(t.subject), term(t.predicate), term(t.object)))
-    return g
 
 
 def test_slice_keeps_what_an_import_with_the_same_options_loads(tmp_path, workspace):
@@ -52,7 +35,7 @@ def test_slice_keeps_what_an_import_with_the_same_options_loads(tmp_path, worksp
     imp = import_into_store(store, [str(MESSY)], "g", opts, workspace)
     loaded = store.quads_for_pattern(None, None, None, ox.NamedNode(imp.content))
     # isomorphic graphs (rdflib.compare.isomorphic): blank node labels differ
-    assert isomorphic(_rdflib(written), _rdflib(loaded))
+    assert isomorphic(rdflib_graph(written), rdflib_graph(loaded))
 
 
 def test_slice_strict_mode_fails_and_writes_nothing(tmp_path, workspace):

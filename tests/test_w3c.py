@@ -21,8 +21,8 @@ from pathlib import Path
 
 import pyoxigraph as ox
 import pytest
-from conftest import W3C, w3c_suite
-from rdflib import BNode, Graph, Literal, URIRef
+from conftest import W3C, rdflib_graph, w3c_suite
+from rdflib import Graph
 from rdflib.compare import isomorphic
 
 from kgkit.errors import ParseError
@@ -67,26 +67,8 @@ def _import(path: Path, fmt: str, base: str | None = None) -> tuple[ox.Store, st
     return store, summary.content
 
 
-def _term(t):
-    if isinstance(t, ox.NamedNode):
-        return URIRef(t.value)
-    if isinstance(t, ox.BlankNode):
-        return BNode(t.value)
-    if t.language:
-        return Literal(t.value, lang=t.language)
-    return Literal(t.value, datatype=URIRef(t.datatype.value))
-
-
-def _graph(triples) -> Graph:
-    """An rdflib graph (for rdflib.compare.isomorphic) from pyoxigraph triples or quads."""
-    g = Graph()
-    for t in triples:
-        g.add((_term(t.subject), _term(t.predicate), _term(t.object)))
-    return g
-
-
 def _as_rdflib(store: ox.Store, content: str) -> Graph:
-    return _graph(store.quads_for_pattern(None, None, None, ox.NamedNode(content)))
+    return rdflib_graph(store.quads_for_pattern(None, None, None, ox.NamedNode(content)))
 
 
 def _reference(path: Path, fmt: ox.RdfFormat, base: str | None = None) -> Graph:
@@ -101,7 +83,7 @@ def _reference(path: Path, fmt: ox.RdfFormat, base: str | None = None) -> Graph:
         ox.Quad(t.subject, t.predicate, t.object)
         for t in ox.parse(path=str(path), format=fmt, base_iri=base)
     )
-    return _graph(bare)
+    return rdflib_graph(bare)
 
 
 def _check_refused(path: Path, fmt: str, base: str | None = None) -> None:
