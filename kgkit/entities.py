@@ -37,6 +37,19 @@ __all__ = [
 CHUNK = 100
 
 
+def _rows_for_items(backend: Backend, select: str, body: str, iris, graphs):
+    """Rows of ``SELECT select WHERE { VALUES ?item {...} body }`` over ``iris``.
+
+    The items go in VALUES blocks of at most ``CHUNK`` IRIs: a long VALUES list is very
+    slow in pyoxigraph (DESIGN.md, measured facts).
+    """
+    uniq = sorted(set(iris))
+    for i in range(0, len(uniq), CHUNK):
+        chunk = " ".join(str(ox.NamedNode(x)) for x in uniq[i : i + CHUNK])
+        q = f"SELECT {select} WHERE {{ VALUES ?item {{ {chunk} }} {body} }}"
+        yield from run_query(backend, q, graphs=graphs).rows
+
+
 class AmbiguousTermError(KgkitError):
     """A label names several entities; ``candidates`` lists them."""
 
@@ -124,21 +137,15 @@ def labels_of(backend: Backend, iris: list[str], graphs: list[str] | None = None
         return {}
     best: dict[str, tuple] = {}
     plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
-    uniq = sorted(set(iris))
-    for i in range(0, len(uniq), CHUNK):
-        chunk = " ".join(str(ox.NamedNode(x)) for x in uniq[i : i + CHUNK])
-        q = (
-            f"SELECT ?item ?p ?l WHERE {{ VALUES ?item {{ {chunk} }} "
-            f"?item ?p ?l . FILTER(?p IN ({plist}) && isLiteral(?l)) }}"
+    body = f"?item ?p ?l . FILTER(?p IN ({plist}) && isLiteral(?l))"
+    for item, p, lit in _rows_for_items(backend, "?item ?p ?l", body, iris, graphs):
+        key = (
+            _lang_rank(lit.language or "", ws.config.languages),
+            preds.index(p.value),
+            lit.value,
         )
-        for item, p, lit in run_query(backend, q, graphs=graphs).rows:
-            key = (
-                _lang_rank(lit.language or "", ws.config.languages),
-                preds.index(p.value),
-                lit.value,
-            )
-            if item.value not in best or key < best[item.value][0]:
-                best[item.value] = (key, lit.value)
+        if item.value not in best or key < best[item.value][0]:
+            best[item.value] = (key, lit.value)
     return {k: v[1] for k, v in best.items()}
 
 
@@ -150,15 +157,9 @@ def _parents_of(
     if not preds or not iris:
         return out
     plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
-    uniq = sorted(set(iris))
-    for i in range(0, len(uniq), CHUNK):
-        chunk = " ".join(str(ox.NamedNode(x)) for x in uniq[i : i + CHUNK])
-        q = (
-            f"SELECT DISTINCT ?item ?parent WHERE {{ VALUES ?item {{ {chunk} }} "
-            f"?item ?p ?parent . FILTER(?p IN ({plist}) && isIRI(?parent)) }}"
-        )
-        for item, parent in run_query(backend, q, graphs=graphs).rows:
-            out[item.value].append(parent.value)
+    body = f"?item ?p ?parent . FILTER(?p IN ({plist}) && isIRI(?parent))"
+    for item, parent in _rows_for_items(backend, "DISTINCT ?item ?parent", body, iris, graphs):
+        out[item.value].append(parent.value)
     return {k: sorted(set(v)) for k, v in out.items()}
 
 
