@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import os
 import re
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -26,6 +27,7 @@ __all__ = [
     "CONFIG_NAME",
     "PROFILE_ROLES",
     "Config",
+    "GraphSettings",
     "Profile",
     "Workspace",
     "find_workspace",
@@ -57,8 +59,10 @@ DEFAULT_PROFILE = {
 }
 PROFILE_ROLES = tuple(DEFAULT_PROFILE)
 
-CONFIG_KEYS = ("store", "prefixes", "profile", "languages", "endpoint")
+CONFIG_KEYS = ("store", "prefixes", "profile", "languages", "endpoint", "graphs")
+GRAPH_KEYS = ("profile", "untagged_language")
 
+_LANG_TAG = r"[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*"
 _PREFIX_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_.-]*$|^$")
 _CURIE = re.compile(r"^([A-Za-z][A-Za-z0-9_.-]*)?:(\S*)$")
 
@@ -90,6 +94,14 @@ languages: [{languages}]
 # A SPARQL 1.1 endpoint to query instead of the embedded store, for a graph
 # that has outgrown one machine. Leave null to use the store.
 endpoint: null
+
+# Settings of single graphs, by graph name: roles the graph maps to its own
+# predicates (the profile above gives the rest) and the language its untagged
+# labels are read as (the stored statements stay as the dump had them), e.g.
+#   graphs:
+#     trades:
+#       untagged_language: en
+#       profile: {{label: [rdfs:label], alias: []}}
 """
 
 
@@ -105,6 +117,25 @@ class Profile:
     def all_predicates(self) -> frozenset[str]:
         """Every predicate IRI the profile names, whatever its role."""
         return frozenset(p for preds in self.roles.values() for p in preds)
+
+    def with_roles(self, roles: dict[str, tuple[str, ...]]) -> Profile:
+        """This profile with the given roles replaced (a graph's own mapping)."""
+        if not roles:
+            return self
+        return Profile({**self.roles, **roles})
+
+
+@dataclass(frozen=True)
+class GraphSettings:
+    """The settings of one graph (``graphs: NAME:`` in ``kgkit.yaml``).
+
+    ``roles`` holds only the profile roles the graph maps itself; the others come
+    from the workspace profile. ``untagged_language`` is the language the graph's
+    untagged literals are read as (the stored statements stay untagged).
+    """
+
+    roles: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    untagged_language: str | None = None
 
 
 @dataclass(frozen=True)
@@ -123,6 +154,7 @@ class Config:
     )
     languages: tuple[str, ...] = ("en",)
     endpoint: str | None = None
+    graphs: dict[str, GraphSettings] = field(default_factory=dict)
 
     @classmethod
     def default(cls) -> Config:
@@ -173,6 +205,35 @@ class Workspace:
     @property
     def profile(self) -> Profile:
         return self.config.profile
+
+    def profile_for(self, graph: str) -> Profile:
+        """The profile ``graph`` is read with: its own roles, the workspace's for the rest."""
+        gs = self.config.graphs.get(graph)
+        return self.config.profile.with_roles(gs.roles) if gs else self.config.profile
+
+    def untagged_language(self, graph: str) -> str | None:
+        """The language untagged literals of ``graph`` are read as (None: untagged)."""
+        gs = self.config.graphs.get(graph)
+        return gs.untagged_language if gs else None
+
+    def profile_over(self, graphs: Iterable[str]) -> Profile:
+        """What a query over several graphs reads each role as: role by role, the
+        predicates of every graph's profile (the workspace profile's first).
+
+        >>> ws = Workspace(Path("/tmp/w"), Config.default())
+        >>> ws.profile_over(["a", "b"]) == ws.profile
+        True
+        """
+        own = [self.config.graphs[g].roles for g in sorted(set(graphs)) if g in self.config.graphs]
+        if not any(own):
+            return self.config.profile
+        roles = {}
+        for role, preds in self.config.profile.roles.items():
+            merged = dict.fromkeys(preds)
+            for r in own:
+                merged.update(dict.fromkeys(r.get(role, ())))
+            roles[role] = tuple(merged)
+        return Profile(roles)
 
     def expand(self, term: str, where: str = "term") -> str:
         """Expand a CURIE or ``<IRI>`` with the workspace prefixes."""
@@ -253,7 +314,55 @@ def _parse_config(data: object, path: Path) -> Config:
         profile=Profile(roles),
         languages=tuple(x.lower() for x in languages),
         endpoint=endpoint,
+        graphs=_parse_graphs(data.get("graphs"), prefixes, path),
     )
+
+
+def _parse_graphs(raw: object, prefixes: dict[str, str], path: Path) -> dict[str, GraphSettings]:
+    """``graphs:``: graph name -> its own profile roles and untagged language."""
+    from kgkit.store import is_valid_graph_name
+
+    if raw is None:
+        return {}
+    if not isinstance(raw, dict):
+        raise WorkspaceError(f"{path}: key 'graphs' must map graph names to their settings")
+    out: dict[str, GraphSettings] = {}
+    for name, settings in raw.items():
+        name = str(name)
+        where = f"{path}: key 'graphs.{name}"
+        if not is_valid_graph_name(name):
+            raise WorkspaceError(
+                f"{where}' is not a graph name (letters, digits, '.', '_' and '-')"
+            )
+        settings = settings or {}
+        if not isinstance(settings, dict):
+            raise WorkspaceError(f"{where}' must be a mapping (keys: {', '.join(GRAPH_KEYS)})")
+        for key in settings:
+            if key not in GRAPH_KEYS:
+                raise WorkspaceError(f"{where}.{key}' is unknown (known: {', '.join(GRAPH_KEYS)})")
+        raw_profile = settings.get("profile") or {}
+        if not isinstance(raw_profile, dict):
+            raise WorkspaceError(f"{where}.profile' must map roles to lists of predicates")
+        roles: dict[str, tuple[str, ...]] = {}
+        for role, value in raw_profile.items():
+            if role not in DEFAULT_PROFILE:
+                raise WorkspaceError(
+                    f"{where}.profile.{role}' is not a role (roles: {', '.join(PROFILE_ROLES)})"
+                )
+            if isinstance(value, str):
+                value = [value]
+            if value is None:
+                value = []
+            if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+                raise WorkspaceError(f"{where}.profile.{role}' must be a list of predicates")
+            roles[role] = tuple(_expand(v, prefixes, f"{where}.profile.{role}'") for v in value)
+        lang = settings.get("untagged_language")
+        if lang is not None and (not isinstance(lang, str) or not re.fullmatch(_LANG_TAG, lang)):
+            raise WorkspaceError(
+                f"{where}.untagged_language' must be a BCP 47 language tag such as en"
+            )
+        out[name] = GraphSettings(roles, lang.lower() if lang else None)
+    return out
 
 
 def load_workspace(root: Path | str) -> Workspace:
