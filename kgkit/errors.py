@@ -5,7 +5,10 @@ into one line on standard error and exit code 1, in one place
 (:func:`kgkit.cli.main`). Anything else reaching a user is a bug.
 """
 
+import unicodedata
+
 __all__ = [
+    "one_line",
     "KgkitError",
     "WorkspaceError",
     "ParseError",
@@ -16,6 +19,45 @@ __all__ = [
     "QueryError",
     "SpecError",
 ]
+
+# characters that would break a message over several lines or hide part of it: line and
+# paragraph separators, and the bidirectional controls that reorder what a terminal shows
+_BIDI = frozenset("\u061c\u200e\u200f\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
+_NAMED = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+
+
+def _escape_char(ch: str) -> str:
+    if ch in _NAMED:
+        return _NAMED[ch]
+    n = ord(ch)
+    if 0xDC80 <= n <= 0xDCFF:  # a byte that was not UTF-8, kept by surrogateescape
+        return f"\\x{n - 0xDC00:02x}"
+    if n < 0x100:
+        return f"\\x{n:02x}"
+    return f"\\u{n:04x}" if n < 0x10000 else f"\\U{n:08x}"
+
+
+def one_line(text: str) -> str:
+    """``text`` with every control character escaped, so that it shows as one line.
+
+    Escaped: C0 and C1 controls (``\\n``, ``\\x0b``, ``\\x85``...), DEL, the line and
+    paragraph separators ``\\u2028``/``\\u2029``, bidirectional controls, and lone
+    surrogates (a byte of a name that was not UTF-8 shows as ``\\xNN``). Everything else,
+    letters of any script included, is kept.
+
+    >>> one_line("bad\\nline\\x85 and \\u2028 end")
+    'bad\\\\nline\\\\x85 and \\\\u2028 end'
+    >>> one_line("caf\\xe9 \\udcff")
+    'café \\\\xff'
+    """
+    if text.isprintable():
+        return text
+    return "".join(
+        _escape_char(ch)
+        if ch in _BIDI or unicodedata.category(ch) in ("Cc", "Cs", "Zl", "Zp")
+        else ch
+        for ch in text
+    )
 
 
 class KgkitError(Exception):
