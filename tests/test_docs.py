@@ -1,4 +1,5 @@
-"""Every command is documented: help text, and a README entry with a real command line."""
+"""Every command is documented: help that reads whole, a section in docs/commands.md
+naming every option, command lines in the docs that parse, demo output quoted as printed."""
 
 from __future__ import annotations
 
@@ -12,11 +13,14 @@ from conftest import ROOT
 from kgkit.cli import cli
 
 README = (ROOT / "README.md").read_text(encoding="utf-8")
+DOC_FILES = sorted((ROOT / "docs").glob("*.md"))
+DOCS = {p.name: p.read_text(encoding="utf-8") for p in DOC_FILES}
+COMMANDS_PAGE = DOCS.get("commands.md", "")
 COMMANDS = sorted(cli.list_commands(click.Context(cli)))
 
 
 def _code_lines(text: str) -> list[str]:
-    """The lines of the README's shell code blocks that run kgkit (after a pipe, too)."""
+    """The lines of the shell code blocks that run kgkit (after a pipe, too)."""
     out = []
     for block in re.findall(r"```(?:bash|sh|shell)\n(.*?)```", text, flags=re.S):
         for line in block.splitlines():
@@ -30,7 +34,7 @@ def _code_lines(text: str) -> list[str]:
 
 
 def _command_of(line: str) -> tuple[str, list[str]]:
-    """Parse a README line as the kgkit command line would; returns (command, its args)."""
+    """Parse a documented line as the kgkit command line would; returns (command, its args)."""
     args = shlex.split(line, comments=True)[1:]
     ctx = cli.make_context("kgkit", list(args), resilient_parsing=False)
     # the sub-command and its arguments (click 8.2 renamed protected_args to _protected_args)
@@ -48,11 +52,18 @@ def _command_of(line: str) -> tuple[str, list[str]]:
     return name, sub_args
 
 
-LINES = _code_lines(README)
+LINES = {name: _code_lines(text) for name, text in [("README.md", README), *DOCS.items()]}
+ALL_LINES = [(page, line) for page, lines in LINES.items() for line in lines]
 
 
-def test_the_readme_shows_command_lines():
-    assert len(LINES) > len(COMMANDS)
+def _section(name: str) -> str:
+    """The `## kgkit NAME` section of docs/commands.md ('' when there is none)."""
+    parts = re.split(r"^## ", COMMANDS_PAGE, flags=re.M)
+    return next((p for p in parts if p.split("\n", 1)[0].strip() == f"kgkit {name}"), "")
+
+
+def test_the_reference_pages_exist():
+    assert "commands.md" in DOCS and len(DOCS) >= 10
 
 
 @pytest.mark.parametrize("name", COMMANDS)
@@ -67,22 +78,52 @@ def test_every_command_has_help_text(name, runner):
             assert (param.help or "").strip(), f"`kgkit {name} {param.opts[0]}` has no help"
 
 
+def test_every_short_help_reads_whole_in_the_command_list(runner):
+    # click cuts a summary that does not fit and ends it with "..."
+    res = runner.invoke(cli, ["--help"], terminal_width=80)
+    listing = res.output.split("Commands:", 1)[1]
+    cut = [line.strip() for line in listing.splitlines() if line.rstrip().endswith("...")]
+    assert cut == []
+
+
 @pytest.mark.parametrize("name", COMMANDS)
-def test_every_command_has_a_real_command_line_in_the_readme(name):
+def test_every_command_has_a_section_in_the_command_reference(name):
+    section = _section(name)
+    assert section, f"docs/commands.md has no '## kgkit {name}' section"
     used = []
-    for line in LINES:
+    for line in _code_lines(section):
         try:
             cmd, _args = _command_of(line)
         except click.UsageError:
             continue
         if cmd == name:
             used.append(line)
-    assert used, f"README has no working `kgkit {name} ...` line in a shell code block"
+    assert used, f"docs/commands.md shows no working `kgkit {name} ...` line"
+    assert re.search(rf"^\| `{re.escape(name)}` \|", COMMANDS_PAGE, flags=re.M), name
 
 
-def test_every_readme_command_line_parses():
+@pytest.mark.parametrize("name", COMMANDS)
+def test_every_option_is_named_in_the_command_reference(name):
+    command = cli.get_command(click.Context(cli), name)
+    section = _section(name)
+    missing = [
+        param.opts[0]
+        for param in command.params
+        if isinstance(param, click.Option)
+        and not param.hidden
+        and not any(f"`{opt}" in section for opt in param.opts if opt.startswith("--"))
+    ]
+    assert missing == [], f"docs/commands.md, kgkit {name}: options not described"
+
+
+def test_the_docs_show_command_lines():
+    assert len(ALL_LINES) > 2 * len(COMMANDS)
+
+
+@pytest.mark.parametrize("page", sorted(LINES))
+def test_every_documented_command_line_parses(page):
     bad = []
-    for line in LINES:
+    for line in LINES[page]:
         try:
             _command_of(line)
         except click.UsageError as exc:
@@ -90,29 +131,37 @@ def test_every_readme_command_line_parses():
     assert bad == []
 
 
-@pytest.mark.parametrize("name", COMMANDS)
-def test_the_command_reference_lists_every_command(name):
-    section = README.split("\n## Command reference\n", 1)[1].split("\n## ", 1)[0]
-    assert re.search(rf"^kgkit {re.escape(name)}\b", section, flags=re.M), name
+@pytest.mark.parametrize("page", ["README.md", *sorted(DOCS)])
+def test_every_link_between_pages_leads_to_a_file(page):
+    folder = ROOT if page == "README.md" else ROOT / "docs"
+    text = README if page == "README.md" else DOCS[page]
+    targets = re.findall(r"\]\(([^)#\s]+)(?:#[^)]*)?\)", text)
+    missing = [t for t in targets if "://" not in t and not (folder / t).exists()]
+    assert missing == []
 
 
-def test_the_demo_walk_quotes_real_output(runner, tmp_path, monkeypatch):
-    # every line of the README's demo excerpts is a line the demo really prints
-    section = README.split("\n## The demo, step by step\n", 1)[1].split("\n## ", 1)[0]
-    quoted = [
+def _quoted(text: str) -> list[str]:
+    return [
         line.strip()
-        for block in re.findall(r"```text\n(.*?)```", section, flags=re.S)
+        for block in re.findall(r"```text\n(.*?)```", text, flags=re.S)
         for line in block.splitlines()
         if line.strip() and line.strip() != "..."
     ]
+
+
+def test_the_demo_quotes_are_real_output(runner, tmp_path, monkeypatch):
+    # every line quoted from the demo (README's "What the demo shows" and docs/demo.md)
+    # is a line the demo really prints
+    section = README.split("\n## What the demo shows\n", 1)[1].split("\n## ", 1)[0]
+    quoted = _quoted(section) + _quoted(DOCS["demo.md"])
     assert len(quoted) > 30
-    monkeypatch.chdir(tmp_path)  # the README runs it as `kgkit demo demo-workspace`
+    monkeypatch.chdir(tmp_path)  # the docs run it as `kgkit demo demo-workspace`
     res = runner.invoke(cli, ["demo", "demo-workspace"])
     assert res.exit_code == 0, res.output
     printed = [line.strip() for line in res.output.splitlines()]
     missing = []
     for line in quoted:
-        if line.endswith("..."):  # shortened in the README: the start must match
+        if line.endswith("..."):  # shortened in the docs: the start must match
             if not any(p.startswith(line[:-3].rstrip()) for p in printed):
                 missing.append(line)
         elif line not in printed:
