@@ -20,7 +20,14 @@ from kgkit.errors import KgkitError, SpecError
 from kgkit.vocab.spec import Selection, VocabSpec
 from kgkit.workspace import Profile, Workspace
 
-__all__ = ["Fetched", "fetch_entities", "run_popularity", "scan_predicate", "select_topics"]
+__all__ = [
+    "Fetched",
+    "fetch_entities",
+    "run_popularity",
+    "scan_predicate",
+    "select_topics",
+    "spec_graphs",
+]
 
 
 @dataclass
@@ -34,6 +41,8 @@ class Fetched:
     same_as: dict[str, set[str]] = field(default_factory=dict)
     graphs: dict[str, frozenset[str]] = field(default_factory=dict)  # shared, never changed
     instances: Counter = field(default_factory=Counter)
+    # the graphs read: {"name", "profile": "own" | "workspace", "untagged_language"}
+    graphs_read: list[dict] = field(default_factory=list)
 
 
 def _graph_filter(backend, graphs: tuple[str, ...] | None) -> dict[str, str]:
@@ -94,9 +103,30 @@ def _template_items(backend, sel: Selection, where: str, graphs) -> Iterator[tup
         yield row, i
 
 
+def spec_graphs(backend, spec: VocabSpec) -> list[str] | None:
+    """The graph names a spec reads; ``None`` (every graph) only on a store with one graph.
+
+    A spec without ``graphs:`` on a store holding several graphs is refused: it would
+    silently read every graph imported later too (a test graph, another edition), and
+    the topics' ``graph`` would change under the same spec.
+    """
+    if spec.graphs is not None:
+        return list(spec.graphs)
+    names = sorted(set((getattr(backend, "graph_names", None) or {}).values()))
+    if len(names) > 1:
+        raise SpecError(
+            f"{spec.path}: the store holds {len(names)} graphs ({', '.join(names)}); "
+            "name the ones this vocabulary reads under 'graphs:'"
+        )
+    return None
+
+
 def select_topics(backend, spec: VocabSpec, ws: Workspace) -> list[str]:
-    """Source IRIs of the selected topics: template runs, the roots asked for, ``include``."""
-    graphs = list(spec.graphs) if spec.graphs is not None else None
+    """Source IRIs of the selected topics: template runs, the roots asked for, ``include``.
+
+    Raises :class:`SpecError` for a spec without ``graphs:`` on a store with several
+    graphs (:func:`spec_graphs`)."""
+    graphs = spec_graphs(backend, spec)
     selected: set[str] = set()
     for n, sel in enumerate(spec.select):
         where = f"{spec.path}: select[{n}]"
@@ -117,7 +147,7 @@ def run_popularity(backend, spec: VocabSpec) -> dict[str, float]:
         return {}
     where = f"{spec.path}: prune.min_popularity"
     sel = Selection(rule.template, rule.params)
-    graphs = list(spec.graphs) if spec.graphs is not None else None
+    graphs = spec_graphs(backend, spec)
     out: dict[str, float] = {}
     value_var = None
     for row, i in _template_items(backend, sel, where, graphs):
@@ -134,6 +164,42 @@ def run_popularity(backend, spec: VocabSpec) -> dict[str, float]:
     return out
 
 
+def _read_as(backend, profile: Profile, gnames: dict[str, str]):
+    """graph name -> (its profile, the language its untagged literals are read as).
+
+    A graph's own roles (``graphs:`` in ``kgkit.yaml``) replace those of ``profile``
+    for that graph only; the stored statements are never changed.
+    """
+    ws = getattr(backend, "ws", None)
+    own = ws.config.graphs if ws is not None else {}
+    out = {}
+    for name in sorted(set(gnames.values())):
+        gs = own.get(name)
+        out[name] = (
+            (profile.with_roles(gs.roles), gs.untagged_language or "") if gs else (profile, "")
+        )
+    return out
+
+
+def _scans(role: str, read_as: dict, gnames: dict[str, str], ranked: bool):
+    """(predicate, tag, untagged language, {content IRI: name}) for one role.
+
+    Graphs that read the predicate alike share one scan; ``tag`` is the predicate's
+    rank in the graph's profile when ``ranked`` (labels), else ``None``.
+    """
+    groups: dict[tuple, dict[str, str]] = {}
+    for iri, name in sorted(gnames.items(), key=lambda kv: kv[1]):
+        prof, untagged = read_as[name]
+        for rank, p in enumerate(prof[role]):
+            groups.setdefault((p, rank if ranked else None, untagged), {})[iri] = name
+    # predicates in the order of first appearance, as one profile would list them
+    order = {}
+    for p, _, _ in groups:
+        order.setdefault(p, len(order))
+    for key in sorted(groups, key=lambda k: (order[k[0]], k[1] or 0, k[2])):
+        yield (*key, groups[key])
+
+
 def fetch_entities(
     backend,
     sources: list[str],
@@ -144,10 +210,23 @@ def fetch_entities(
 ) -> Fetched:
     """Labels, aliases, hidden labels, notations, same-as links (of ``sources``), every
     parent link of the graph (reattachment walks above the selection), and, with
-    ``types``, how many entities have each selected topic as their type."""
+    ``types``, how many entities have each selected topic as their type.
+
+    Each graph is read with its own settings (``graphs:`` in ``kgkit.yaml``, through
+    ``backend.ws``): its roles replace those of ``profile`` for its statements, and
+    its untagged labels and aliases arrive in its ``untagged_language``."""
     wanted = set(sources)
     gnames = _graph_filter(backend, graphs)
+    read_as = _read_as(backend, profile, gnames)
     f = Fetched()
+    f.graphs_read = [
+        {
+            "name": name,
+            "profile": "workspace" if prof is profile else "own",
+            "untagged_language": untagged or None,
+        }
+        for name, (prof, untagged) in read_as.items()
+    ]
     # most entities come from one graph: they share one frozenset per combination of graph
     # names instead of a set each (200k small sets cost 1.4 s to make at 200k topics)
     combos: dict[tuple, frozenset[str]] = {}
@@ -164,54 +243,54 @@ def fetch_entities(
         if old is None or gname not in old:
             f.graphs[s] = with_graph(old, gname)
 
-    def literals(p: str, into: dict, tag) -> None:
+    def literals(p: str, into: dict, tag, untagged: str, where: dict[str, str]) -> None:
         # the hot loop of the fetch: kept flat on purpose
         graphs_of = f.graphs
         Literal = ox.Literal
-        for gname, s, o in scan_predicate(backend, p, gnames):
+        for gname, s, o in scan_predicate(backend, p, where):
             if s in wanted and type(o) is Literal:
                 g = graphs_of.get(s)
                 if g is None or gname not in g:
                     graphs_of[s] = with_graph(g, gname)
                 lang = o.language
-                item = (lang.lower() if lang else "", o.value, tag)
+                item = (lang.lower() if lang else untagged, o.value, tag)
                 lst = into.get(s)
                 if lst is None:
                     into[s] = [item]
                 else:
                     lst.append(item)
 
-    for rank, p in enumerate(profile["label"]):
+    for p, rank, untagged, where in _scans("label", read_as, gnames, ranked=True):
         if progress:
             progress(f"labels <{p}>")
-        literals(p, f.labels, rank)
+        literals(p, f.labels, rank, untagged, where)
     for role, kind in (("alias", "alias"), ("hidden_label", "hidden")):
-        for p in profile[role]:
+        for p, _, untagged, where in _scans(role, read_as, gnames, ranked=False):
             if progress:
                 progress(f"aliases <{p}>")
-            literals(p, f.aliases, kind)
-    for p in profile["parent"]:
+            literals(p, f.aliases, kind, untagged, where)
+    for p, _, _, where in _scans("parent", read_as, gnames, ranked=False):
         if progress:
             progress(f"parents <{p}>")
-        for gname, s, o in scan_predicate(backend, p, gnames):
+        for gname, s, o in scan_predicate(backend, p, where):
             if type(o) is ox.NamedNode:
                 if s in wanted:
                     note(gname, s)
                 f.parents.setdefault(s, []).append(o.value)
-    for p in profile["notation"]:
-        for gname, s, o in scan_predicate(backend, p, gnames):
+    for p, _, _, where in _scans("notation", read_as, gnames, ranked=False):
+        for gname, s, o in scan_predicate(backend, p, where):
             if s in wanted and type(o) is ox.Literal:
                 note(gname, s)
                 f.notations.setdefault(s, set()).add(o.value)
-    for p in profile["same_as"]:
-        for _gname, s, o in scan_predicate(backend, p, gnames):
+    for p, _, _, where in _scans("same_as", read_as, gnames, ranked=False):
+        for _gname, s, o in scan_predicate(backend, p, where):
             if s in wanted and type(o) is ox.NamedNode:
                 f.same_as.setdefault(s, set()).add(o.value)
     if types:
-        for p in profile["type"]:
+        for p, _, _, where in _scans("type", read_as, gnames, ranked=False):
             if progress:
                 progress(f"instances <{p}>")
-            for _gname, _s, o in scan_predicate(backend, p, gnames):
+            for _gname, _s, o in scan_predicate(backend, p, where):
                 if type(o) is ox.NamedNode and o.value in wanted:
                     f.instances[o.value] += 1
     return f
