@@ -164,11 +164,11 @@ def test_bad_targets(tmp_path):
 def test_report_command(runner, demo_workspace, tmp_path):
     out = tmp_path / "deep" / "page.html"
     first = demo_workspace["releases"][0]
-    res = runner.invoke(cli, ["report", str(first), "-o", str(out)])
+    res = runner.invoke(cli, ["review", str(first), "-o", str(out)])
     assert res.exit_code == 0, res.output
     assert res.output == f"review page written to {out} ({out.stat().st_size:,} bytes)\n"
     assert "First release: nothing to compare with." in out.read_text(encoding="utf-8")
-    res = runner.invoke(cli, ["report", str(tmp_path), "-o", str(tmp_path / "x.html")])
+    res = runner.invoke(cli, ["review", str(tmp_path), "-o", str(tmp_path / "x.html")])
     assert res.exit_code == 1
     assert res.output == (
         f"Error: {tmp_path}: not a release or build folder (no topics.jsonl in it)\n"

@@ -1,21 +1,26 @@
 """The ``kgkit`` command line: click commands only, each a thin layer over the library.
 
 Errors a user can cause (:class:`kgkit.errors.KgkitError`) become one line on
-standard error and exit code 1, here and nowhere else; click keeps exit code 2
-for bad arguments. ``--debug`` shows the traceback instead.
+standard error and the exit code their class carries, here and nowhere else (click
+keeps exit code 2 for bad arguments). The parameters an error's message names are
+shown as the flags of the command being run. Text arguments that are not UTF-8 are
+refused as bad arguments before a command runs. ``--debug`` shows the traceback instead.
 """
 
 from __future__ import annotations
 
+import functools
 import importlib
+import re
 import sys
 
 import click
 
 import kgkit
-from kgkit.errors import KgkitError
+from kgkit.errors import ArgumentError, KgkitError, one_line
+from kgkit.inputs import check_text
 
-__all__ = ["cli", "main"]
+__all__ = ["UserError", "cli", "flag_message", "flag_name", "main"]
 
 
 class _Group(click.Group):
@@ -27,16 +32,103 @@ class _Group(click.Group):
         if module_name is None:
             return None
         module = importlib.import_module(f"kgkit.cli.{module_name}")
-        return next((c for c in module.COMMANDS if c.name == name), None)
+        cmd = next((c for c in module.COMMANDS if c.name == name), None)
+        if cmd is not None:
+            _check_text_arguments(cmd)
+        return cmd
 
     def invoke(self, ctx):
-        # the one place where a user's error becomes one line and exit code 1
+        # the one place where a user's error becomes one line and its class's exit code
         try:
             return super().invoke(ctx)
         except KgkitError as exc:
             if (ctx.obj or {}).get("debug"):
                 raise
-            raise click.ClickException(str(exc)) from None
+            cmd = self.get_command(ctx, ctx.invoked_subcommand) if ctx.invoked_subcommand else None
+            raise UserError(exc, [*(cmd.params if cmd else ()), *self.params]) from None
+
+
+class UserError(click.ClickException):
+    """A :class:`KgkitError` as click shows it: ``Error: <one line>``, then its detail
+    lines, and the error's own exit code."""
+
+    def __init__(self, exc: KgkitError, params: list[click.Parameter]):
+        super().__init__(one_line(flag_message(exc, params)))
+        self.exit_code = exc.exit_code
+        self.details = [one_line(d) for d in exc.details]
+
+    def show(self, file=None) -> None:
+        super().show(file)
+        for line in self.details:
+            click.echo(line, err=True)
+
+
+def flag_name(param: click.Parameter) -> str:
+    """How the command line spells a parameter: its long flag, or its argument name."""
+    if isinstance(param, click.Option):
+        longs = [o for o in param.opts if o.startswith("--")]
+        return (longs or param.opts)[0]
+    return param.human_readable_name
+
+
+def flag_message(exc: KgkitError, params: list[click.Parameter]) -> str:
+    """``str(exc)`` with each library parameter it names written as its flag.
+
+    ``batch_size`` becomes ``--batch-size`` and ``on_error='skip'`` ``--on-error skip``.
+    """
+    text = str(exc)
+    by_name = {}
+    for p in params:
+        by_name.setdefault(p.name, p)
+    for name in exc.params:
+        p = by_name.get(name)
+        if p is None:
+            continue
+        flag = flag_name(p)
+
+        def spell(m: re.Match, flag=flag) -> str:
+            value = m.group(1)
+            if value is None:
+                return flag
+            return f"{flag} {value.strip(chr(39) + chr(34))}"
+
+        text = re.sub(
+            rf"(?<![\w.-]){re.escape(name)}(?:=('[^']*'|\"[^\"]*\"|[^\s,;:)]+))?(?![\w-])",
+            spell,
+            text,
+        )
+    return text
+
+
+def _values(value) -> list[str]:
+    if isinstance(value, str):
+        return [value]
+    if isinstance(value, list | tuple):
+        return [v for x in value for v in _values(x)]
+    return []
+
+
+def _check_text_arguments(cmd: click.Command) -> None:
+    """Make ``cmd`` refuse text arguments that are not UTF-8 (paths excepted) as usage
+    errors, before it runs (once per command object)."""
+    callback = cmd.callback
+    if callback is None or getattr(callback, "_kgkit_checked", False):
+        return
+
+    @functools.wraps(callback)
+    def checked(*args, **kwargs):
+        for p in cmd.params:
+            if isinstance(p.type, click.Path | click.File):
+                continue
+            for v in _values(kwargs.get(p.name)):
+                try:
+                    check_text(v, p.name)
+                except ArgumentError as exc:
+                    raise click.BadParameter(exc.cause, param=p) from None
+        return callback(*args, **kwargs)
+
+    checked._kgkit_checked = True
+    cmd.callback = checked
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -82,7 +174,7 @@ COMMAND_MODULES = {
     "verify": "release_cmds",
     "diff": "release_cmds",
     "lint": "release_cmds",
-    "report": "review_cmds",
+    "review": "review_cmds",
     "probe": "review_cmds",
     "demo": "demo_cmds",
 }

@@ -14,7 +14,11 @@ from kgkit.demo import iter_demo
 @click.command("demo")
 @click.argument("directory", required=False, type=click.Path(file_okay=False, path_type=Path))
 def demo_command(directory: Path | None) -> None:
-    """Build the demo workspace in DIRECTORY (default: a new folder) and run the job on it.
+    """Build the invented demo workspace and run the whole job on it.
+
+    DIRECTORY is a new folder (default: a new temporary folder). The demo
+    imports a messy dump, explores it, compiles, releases, probes a corpus,
+    curates, releases again after a refreshed dump, and writes the review page.
 
     Example: kgkit demo demo-workspace
     """

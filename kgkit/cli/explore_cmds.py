@@ -40,8 +40,8 @@ def _output_options(f):
         type=click.Choice(list(FORMATS)),
         default="table",
         show_default=True,
-        help="table for people; json, csv, tsv as the W3C SPARQL results formats; "
-        "nt or ttl for CONSTRUCT and DESCRIBE.",
+        help="table: aligned columns for reading; json, csv, tsv: the W3C SPARQL result "
+        "formats; nt, ttl: N-Triples or Turtle, for CONSTRUCT and DESCRIBE.",
     )(f)
     f = click.option(
         "--allow-service",
@@ -64,7 +64,14 @@ def _out():
 
 @click.command("query")
 @click.argument("sparql", required=False)
-@click.option("--file", "-f", "path", type=click.Path(dir_okay=False), help="Read the query here.")
+@click.option(
+    "--file",
+    "-f",
+    "path",
+    metavar="FILE",
+    type=click.Path(dir_okay=False),
+    help="Read the query from FILE.",
+)
 @_output_options
 @click.option(
     "--allow-update",
@@ -73,9 +80,10 @@ def _out():
 )
 @click.pass_context
 def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_update):
-    """Run a SPARQL query given as SPARQL, in --file FILE, or on standard input (-).
+    """Run a SPARQL query on the store (or the workspace's endpoint).
 
-    Workspace prefixes need no PREFIX line. The query sees the union of the
+    Give the query as the SPARQL argument, in --file FILE, or on standard input
+    (no argument, or -). Workspace prefixes need no PREFIX line. The query sees the union of the
     imported graphs (GRAPH ?g reaches each one); updates and SERVICE clauses are
     refused unless allowed.
 
@@ -116,7 +124,7 @@ def _params(pairs: tuple[str, ...]) -> dict[str, str]:
     for pair in pairs:
         key, eq, value = pair.partition("=")
         if not eq or not key:
-            raise KgkitError(f"-p {pair!r}: write -p NAME=VALUE")
+            raise KgkitError(f"-p {pair!r}: write -p PARAM=VALUE")
         if key in out:
             raise KgkitError(f"-p {key}: given twice")
         out[key] = value
@@ -125,15 +133,23 @@ def _params(pairs: tuple[str, ...]) -> dict[str, str]:
 
 @click.command("run")
 @click.argument("name")
-@click.option("--param", "-p", "pairs", multiple=True, help="A parameter: -p NAME=VALUE.")
+@click.option(
+    "--param",
+    "-p",
+    "pairs",
+    metavar="PARAM=VALUE",
+    multiple=True,
+    help="A value for one of the template's parameters (repeatable).",
+)
 @_output_options
 @click.pass_context
 def run_command(ctx, name, pairs, fmt, graphs, allow_service, timeout):
-    """Run the template NAME with parameters -p NAME=VALUE.
+    """Run the template NAME with values for its parameters.
 
-    `kgkit templates` lists the templates and their parameters.
+    Each value is given as -p PARAM=VALUE; `kgkit templates NAME` lists the
+    template's parameters.
 
-    Example: kgkit run descendants -p root=ex:water-sports -p max_depth=2 --format csv
+    Example: kgkit run descendants -p root=tw:water-sports -p max_depth=2 --format csv
     """
     ws = get_workspace(ctx)
     params = _params(pairs)
@@ -148,7 +164,9 @@ def run_command(ctx, name, pairs, fmt, graphs, allow_service, timeout):
 @click.argument("name", required=False)
 @click.pass_context
 def templates_command(ctx, name):
-    """List the templates with their parameters, or show template NAME in full.
+    """List the templates and their parameters, or show one.
+
+    With NAME, shows that template in full, with its query.
 
     Workspace templates (queries/*.rq) override built-in ones of the same name.
 
@@ -180,11 +198,12 @@ def templates_command(ctx, name):
 @click.option("--json", "as_json", is_flag=True, help="Print the card as one JSON object.")
 @click.pass_context
 def show_command(ctx, term, graphs, as_json):
-    """Show everything about one entity: TERM is a CURIE, an <IRI> or an exact label.
+    """Show everything the store says about one entity.
 
-    A label shared by several entities lists them, with their parents.
+    TERM is a CURIE, an <IRI> or an exact label. A label shared by several
+    entities lists them, with their parents.
 
-    Example: kgkit show ex:canoe-polo
+    Example: kgkit show tw:canoe-polo
     """
     ws = get_workspace(ctx)
     with connect(ws) as backend:
@@ -203,9 +222,9 @@ def show_command(ctx, term, graphs, as_json):
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object per match.")
 @click.pass_context
 def find_command(ctx, text, language, limit, graphs, as_json):
-    """Find entities by label or alias, best matches first, each with its parents.
+    """Find entities by label or alias, each with its parents.
 
-    Exact names first, then names starting with TEXT, then a word starting with
+    Best matches first: exact names first, then names starting with TEXT, then a word starting with
     it, then anywhere; case does not matter.
 
     Example: kgkit find polo --lang en
@@ -235,12 +254,13 @@ def find_command(ctx, text, language, limit, graphs, as_json):
 @_graph_option
 @click.pass_context
 def tree_command(ctx, term, depth, max_children, graphs):
-    """Show the hierarchy below TERM (a CURIE, <IRI> or exact label) as an indented tree.
+    """Show the hierarchy below an entity as an indented tree.
 
-    Each entity shows how many entities are below it; one with several parents
-    says so; a cycle is cut and marked where it closes.
+    TERM is a CURIE, an <IRI> or an exact label. Each entity shows how many
+    entities are below it; one with several parents says so; a cycle is cut
+    and marked where it closes.
 
-    Example: kgkit tree ex:water-sports --depth 3
+    Example: kgkit tree tw:water-sports --depth 3
     """
     ws = get_workspace(ctx)
     with connect(ws) as backend:
@@ -260,9 +280,10 @@ def tree_command(ctx, term, depth, max_children, graphs):
 @_graph_option
 @click.pass_context
 def shell_command(ctx, fmt, graphs):
-    """Type SPARQL interactively; end each query with ; (':help' lists the commands).
+    """Type SPARQL queries interactively.
 
-    History is kept across sessions in the workspace (.kgkit/shell-history).
+    End each query with ; at the end of a line; ':help' lists the shell's own
+    commands. History is kept across sessions in the workspace (.kgkit/shell-history).
 
     Example: kgkit shell
     """

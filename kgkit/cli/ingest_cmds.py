@@ -143,10 +143,11 @@ def import_command(
     as_json,
     quiet,
 ):
-    """Import FILES (N-Triples, N-Quads, Turtle, JSON-LD or entity records) into the store.
+    """Import dump files into one graph of the store.
 
-    Compressed input (gzip, bzip2, xz, zstd) is recognised by its content. Use -
-    for standard input (with --format). Each import replaces its graph atomically.
+    FILES are N-Triples, N-Quads, Turtle, JSON-LD or entity records. Compressed
+    input (gzip, bzip2, xz, zstd) is recognised by its content. Use - for
+    standard input (with --format). Each import replaces its graph atomically.
 
     Example: kgkit import dump.nt.gz --keep profile --languages en,de --on-error skip
     """
@@ -184,7 +185,10 @@ def import_command(
 @click.option("--json", "as_json", is_flag=True, help="One JSON object per graph.")
 @click.pass_context
 def graphs_command(ctx, as_json):
-    """List the graphs in the store with the provenance of their import.
+    """List the graphs in the store and where each one came from.
+
+    For each graph, the provenance of its import: files, sizes, sha256, format,
+    counts and times.
 
     Example: kgkit graphs --json
     """
@@ -277,14 +281,15 @@ def slice_command(
     as_json,
     quiet,
 ):
-    """Cut a dump too big to import down to what a vocabulary needs, as N-Triples.
+    """Cut a dump down to what a vocabulary needs, as N-Triples.
 
+    For dumps too big to import whole.
     Keeps the profile's predicates (or --predicates), the chosen --languages, and with
     --roots only the entities below those roots. Reads N-Triples, N-Quads or entity
     records, plain or compressed; the store is not touched. Import the result with
     kgkit import.
 
-    Example: kgkit slice dump.nt.gz -o topics.nt --languages en,de --roots ex:sport
+    Example: kgkit slice dump.nt.gz -o topics.nt --languages en,de --roots tw:water-sports
     """
     from kgkit.ingest.slice_dump import slice_dump
 

@@ -16,30 +16,38 @@ from kgkit.release.release import make_release
 @click.command("release")
 @click.argument("spec", type=click.Path(path_type=str))
 @click.option(
-    "--version",
+    "--as-version",
     "version",
+    metavar="VERSION",
     default=None,
-    help="Release under this version instead of the one the rules give (must be greater "
-    "than the previous release; also allows a release when no topic changed).",
+    help="Release as VERSION (three numbers, greater than the previous release) instead of "
+    "the version the changes call for; also releases when no topic changed.",
 )
 @click.option(
-    "--strict", is_flag=True, help="Fail on a stale curation edit instead of reporting it."
+    "--strict",
+    is_flag=True,
+    help="Treat a stale curation edit as an error (default: report it and go on).",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.pass_context
 def release_command(
     ctx: click.Context, spec: str, version: str | None, strict: bool, as_json: bool
 ):
-    """Compile SPEC afresh and release it as vocab/<name>/<version>/.
+    """Compile a spec afresh and release a new version of it.
 
-    The version follows the rules in the README (first release 1.0.0; a topic
-    removed or deprecated -> major; added or moved -> minor; labels or aliases
-    -> patch). An existing release folder is never overwritten.
+    SPEC is a vocabulary spec, vocab/NAME.yaml; the release goes to
+    vocab/NAME/VERSION/. The version follows semantic
+    versioning from the changes since the previous release: the first release
+    is 1.0.0; a topic removed, deprecated or renamed makes a major release; a
+    topic added or moved a minor one; a label, alias or notation changed a
+    patch. An existing release folder is never overwritten.
 
-    Example: kgkit release vocab/sport.yaml
+    Example: kgkit release vocab/tidewell.yaml
     """
     ws = get_workspace(ctx)
     res = make_release(ws, spec, version=version, strict=strict)
+    for w in res.warnings:
+        click.echo(f"Warning: {w}", err=True)
     if as_json:
         echo_json(res.summary())
         return
@@ -56,16 +64,20 @@ def release_command(
 
 
 @click.command("verify")
-@click.argument("path", type=click.Path(path_type=str))
+@click.argument("release", metavar="RELEASE", type=click.Path(path_type=str))
 @click.option("--json", "as_json", is_flag=True, help="Print the outcome as one JSON object.")
-def verify_command(path: str, as_json: bool) -> None:
-    """Re-hash the release folder PATH and compare every file with its manifest.
+def verify_command(release: str, as_json: bool) -> None:
+    """Check a release's files against its manifest.
 
-    Names each file that changed, is missing or is not listed; exits 1 if any.
+    RELEASE is a release folder, vocab/NAME/VERSION. Names each file that
+    changed, is missing, is not listed or is not a regular file (a symbolic
+    link is a problem), and each manifest value that contradicts the folder or
+    the files (version, previous, source hashes, tool version, counts); exits 1
+    if any. It cannot catch a file rewritten together with its hash.
 
-    Example: kgkit verify vocab/sport/1.0.0
+    Example: kgkit verify vocab/tidewell/1.0.0
     """
-    res = verify_release(path)
+    res = verify_release(release)
     if as_json:
         echo_json(res.to_json())
     else:
@@ -75,16 +87,23 @@ def verify_command(path: str, as_json: bool) -> None:
 
 
 @click.command("diff")
-@click.argument("old", type=click.Path(path_type=str))
-@click.argument("new", type=click.Path(path_type=str))
-@click.option("--json", "as_json", is_flag=True, help="Print every change as one JSON object.")
+@click.argument("old", metavar="OLD", type=click.Path(path_type=str))
+@click.argument("new", metavar="NEW", type=click.Path(path_type=str))
+@click.option(
+    "--json",
+    "as_json",
+    is_flag=True,
+    help="Print one JSON object: the counts by kind and the list of changes.",
+)
 def diff_command(old: str, new: str, as_json: bool) -> None:
-    """List what changed from vocabulary OLD to NEW (release or build folders).
+    """List what changed from one vocabulary to another.
 
-    Topics added, removed, deprecated, relabelled (per language), moved, aliases
-    added and removed, each with the ids it concerns and its cause (graph or curation).
+    OLD and NEW are vocabulary folders: releases (vocab/NAME/VERSION) or a
+    build (vocab/NAME/build). Topics added, removed, deprecated, relabelled (per
+    language), moved, aliases added and removed, each with the ids it concerns
+    and its cause (graph or curation).
 
-    Example: kgkit diff vocab/sport/1.0.0 vocab/sport/build
+    Example: kgkit diff vocab/tidewell/1.0.0 vocab/tidewell/build
     """
     d = diff_folders(old, new)
     if as_json:
@@ -94,17 +113,20 @@ def diff_command(old: str, new: str, as_json: bool) -> None:
 
 
 @click.command("lint")
-@click.argument("target", type=click.Path(path_type=str))
+@click.argument("vocab", metavar="VOCAB", type=click.Path(path_type=str))
 @click.option("--json", "as_json", is_flag=True, help="Print the findings as one JSON object.")
-def lint_command(target: str, as_json: bool) -> None:
-    """Check the SKOS vocabulary TARGET against the catalogue of SKOS quality issues.
+def lint_command(vocab: str, as_json: bool) -> None:
+    """Check a vocabulary's SKOS for quality problems.
 
-    TARGET is a release folder, a build folder (both hold skos.ttl) or a SKOS file.
-    Exits 1 when a check of level error fires.
+    VOCAB is a vocabulary folder (a release or a build; both hold skos.ttl) or a
+    SKOS file. The checks look for hierarchy loops, missing, blank, duplicated or
+    unprintable labels, unlinked concepts, split hierarchies, language gaps and
+    top-concept problems (--json lists every check). Exits 1 when a check of
+    level error fires.
 
-    Example: kgkit lint vocab/sport/1.0.0
+    Example: kgkit lint vocab/tidewell/1.0.0
     """
-    report = lint_path(target)
+    report = lint_path(vocab)
     if as_json:
         echo_json(report.to_json())
     else:

@@ -1,4 +1,4 @@
-"""``kgkit report`` (the review page) and ``kgkit probe`` (annotator's first pass)."""
+"""``kgkit review`` (the review page) and ``kgkit probe`` (annotator's first pass)."""
 
 from __future__ import annotations
 
@@ -20,8 +20,8 @@ from kgkit.probe import (
 from kgkit.report import write_page
 
 
-@click.command("report")
-@click.argument("target", type=click.Path(file_okay=False, path_type=Path))
+@click.command("review")
+@click.argument("vocab", metavar="VOCAB", type=click.Path(file_okay=False, path_type=Path))
 @click.option(
     "--output",
     "-o",
@@ -30,15 +30,17 @@ from kgkit.report import write_page
     help="The HTML file to write.",
 )
 @click.option("--no-lint", is_flag=True, help="Leave the lint findings out (faster).")
-def report_command(target: Path, output: Path, no_lint: bool) -> None:
-    """Write a self-contained HTML review page for a release or build folder TARGET.
+def review_command(vocab: Path, output: Path, no_lint: bool) -> None:
+    """Write the HTML review page of a vocabulary folder.
 
-    The page works offline: topic tree with search, per-topic card, ambiguous
-    aliases, dropped topics, lint findings, changelog and charts.
+    VOCAB is a release (vocab/NAME/VERSION) or a build (vocab/NAME/build). The
+    page is one self-contained file and works offline: topic tree with search,
+    per-topic card, ambiguous aliases, dropped topics, lint findings, changelog
+    and charts.
 
-    Example: kgkit report vocab/tidewell/1.0.0 -o tidewell-1.0.0.html
+    Example: kgkit review vocab/tidewell/1.0.0 -o tidewell-1.0.0.html
     """
-    path = write_page(target, output, lint=not no_lint)
+    path = write_page(vocab, output, lint=not no_lint)
     click.echo(f"review page written to {path} ({path.stat().st_size:,} bytes)")
 
 
@@ -68,9 +70,11 @@ def _line_col(text: str, offset: int) -> tuple[int, int]:
 
 
 @click.command("probe")
-@click.argument("release", type=click.Path(file_okay=False, path_type=Path))
+@click.argument("vocab", metavar="VOCAB", type=click.Path(file_okay=False, path_type=Path))
 @click.argument("text", required=False)
-@click.option("--file", "-f", "file", help="Read the text from FILE (- for standard input).")
+@click.option(
+    "--file", "-f", "file", metavar="FILE", help="Read the text from FILE (- for standard input)."
+)
 @click.option(
     "--corpus",
     type=click.Path(file_okay=False, exists=True, path_type=Path),
@@ -89,17 +93,19 @@ def _line_col(text: str, offset: int) -> tuple[int, int]:
     help="With --corpus: write the flagged aliases as remove_alias curation edits to this file.",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the hits (or the corpus) as JSON.")
-def probe_command(release, text, file, corpus, threshold, write_curation, as_json):
-    """Mark where the aliases of RELEASE (a release or build folder) occur in TEXT.
+def probe_command(vocab, text, file, corpus, threshold, write_curation, as_json):
+    """Mark where a vocabulary's aliases occur in a text.
 
-    Matches as an annotator's first pass would: longest match first, on word
-    boundaries, compared by the lexicon's match key (NFKC, case folded). Each hit
-    shows its span, its topic (all candidates when the key is ambiguous) and the
-    topic's parents.
+    VOCAB is a release (vocab/NAME/VERSION) or a build (vocab/NAME/build); the
+    text is TEXT, --file FILE, or with --corpus every text of a folder. Matches
+    as an annotator's first pass would: longest match first, on word boundaries,
+    compared by the lexicon's match key (NFKC, case folded). Each hit shows its
+    span, its topic (all candidates when the key is ambiguous) and the topic's
+    parents.
 
     Example: kgkit probe vocab/tidewell/1.0.0 -f article.txt
     """
-    lexicon = load_lexicon(release)
+    lexicon = load_lexicon(vocab)
     if corpus is not None:
         if text is not None or file is not None:
             raise click.UsageError("--corpus takes no TEXT or -f FILE")
@@ -146,4 +152,4 @@ def probe_command(release, text, file, corpus, threshold, write_curation, as_jso
     click.echo(f"{len(hits)} hits" if len(hits) != 1 else "1 hit")
 
 
-COMMANDS = [report_command, probe_command]
+COMMANDS = [review_command, probe_command]

@@ -12,19 +12,24 @@ from kgkit.vocab.compile import compile_vocabulary
 
 @click.command("compile")
 @click.argument("spec", type=click.Path(dir_okay=False, path_type=str))
-@click.option("--strict", is_flag=True, help="A stale curation edit is an error, not a warning.")
+@click.option(
+    "--strict",
+    is_flag=True,
+    help="Treat a stale curation edit as an error (default: report it and go on).",
+)
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 @click.pass_context
 def compile_command(ctx, spec, strict, as_json, quiet):
-    """Compile the vocabulary of SPEC (vocab/NAME.yaml) into vocab/NAME/build/.
+    """Compile the vocabulary of a spec into its build folder.
 
-    Selects topics with the spec's templates, applies the curation file, repairs
+    SPEC is a vocabulary spec, vocab/NAME.yaml; the build goes to
+    vocab/NAME/build/. Selects topics with the spec's templates, applies the curation file, repairs
     the hierarchy, cleans aliases, prunes, and writes topics.jsonl, topics.yaml,
     skos.ttl, lexicon.tsv and the report. A failed compile leaves the previous
     build as it was.
 
-    Example: kgkit compile vocab/sport.yaml --json
+    Example: kgkit compile vocab/tidewell.yaml --json
     """
     ws = get_workspace(ctx)
     t0 = time.perf_counter()

@@ -16,7 +16,10 @@ from kgkit.workspace import init_workspace
     help="Comma-separated default label languages written into kgkit.yaml.",
 )
 def init_command(directory: str, languages: str) -> None:
-    """Make a workspace in DIRECTORY: kgkit.yaml, queries/, vocab/ and an empty store.
+    """Make a workspace with kgkit.yaml, queries/ and vocab/.
+
+    DIRECTORY is a new or empty folder (default: the current folder); the
+    workspace also gets an empty store.
 
     Example: kgkit init my-topics --languages en,de
     """
