@@ -77,16 +77,16 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
     assert lint.exit_code == 0, lint.output
     assert last_json(lint.output)["counts"]["error"] == 0
 
-    # nothing changed: refused with one line; --version must be greater
+    # nothing changed: refused with one line; --as-version must be greater
     r = kgkit("release", str(spec))
     assert r.exit_code == 1
     assert r.output == (
         "Error: no topic changed since release 2.0.0; nothing to release "
         "(pass --version to release anyway)\n"
     )
-    r = kgkit("release", str(spec), "--version", "2.0")
+    r = kgkit("release", str(spec), "--as-version", "2.0")
     assert r.exit_code == 1 and "is not a release version" in r.output
-    r = kgkit("release", str(spec), "--version", "3.0.0", "--json")
+    r = kgkit("release", str(spec), "--as-version", "3.0.0", "--json")
     assert r.exit_code == 0 and last_json(r.output)["version"] == "3.0.0"
     assert sorted(p.name for p in home.iterdir()) == ["1.0.0", "2.0.0", "3.0.0", "build"]
 
