@@ -19,7 +19,8 @@ Header lines:
     a parameter. ``KIND`` is ``iri``, ``literal``, ``language``, ``integer`` or
     ``predicates``. ``?`` makes it optional with no default (left unbound). A
     default starting with ``@`` names a profile role (``@parent``) for
-    ``predicates``, and ``@language`` is the workspace's first language.
+    ``predicates``, and ``@language`` is the workspace's first language. A
+    ``language`` value ``@untagged`` asks for literals without a language tag.
 ``#: walk ?FROM -> ?TO from PARAM [up to PARAM]``
     the query returns hierarchy links; kgkit walks them breadth first from the
     value of ``PARAM`` and returns ``?TO`` (renamed ``?item``) with ``?depth``, the
@@ -35,6 +36,11 @@ they bind ``?NAME``. ``predicates`` parameters fill the
 list of predicates is many times slower in pyoxigraph, and so are
 ``substitutions=`` on path queries (see ``DESIGN.md``). No value is ever pasted into
 the text as written.
+
+Graph settings (``graphs:`` in ``kgkit.yaml``): a profile role reads as the union of
+the predicates the queried graphs map it to, and a ``language`` value also takes the
+untagged literals when a queried graph reads its untagged literals in that language
+(the VALUES block then has a second row with the untagged value).
 """
 
 from __future__ import annotations
@@ -49,10 +55,11 @@ import pyoxigraph as ox
 
 from kgkit.errors import KgkitError, ParameterError, TemplateError, WorkspaceError
 from kgkit.query import Backend, QueryResult, run_query, tokenize
-from kgkit.workspace import PROFILE_ROLES, Workspace
+from kgkit.workspace import PROFILE_ROLES, Profile, Workspace
 
 __all__ = [
     "KINDS",
+    "UNTAGGED",
     "Param",
     "Template",
     "bind_template",
@@ -60,11 +67,15 @@ __all__ = [
     "load_template",
     "parse_template",
     "parse_value",
+    "read_graphs",
     "run_template",
     "walk_links",
 ]
 
 KINDS = ("iri", "literal", "language", "integer", "predicates")
+#: the ``language`` value asking for untagged literals (langMatches(lang(?l), "") holds
+#: exactly for them)
+UNTAGGED = "@untagged"
 XSD_INTEGER = ox.NamedNode("http://www.w3.org/2001/XMLSchema#integer")
 #: marks where the VALUES block goes, when the start of every WHERE group is not right
 BIND_SLOT = "%{bind}"
@@ -292,8 +303,13 @@ def load_template(ws: Workspace | None, name: str) -> Template:
 # Values
 
 
-def parse_value(param: Param, raw: str, ws: Workspace) -> ox.NamedNode | ox.Literal | list[str]:
-    """Parse one parameter value by its kind; :class:`ParameterError` if it is not one."""
+def parse_value(
+    param: Param, raw: str, ws: Workspace, profile: Profile | None = None
+) -> ox.NamedNode | ox.Literal | list[str]:
+    """Parse one parameter value by its kind; :class:`ParameterError` if it is not one.
+
+    ``@role`` values of ``predicates`` read ``profile`` (default: the workspace's).
+    """
     what = f"parameter {param.name!r} ({param.kind})"
     raw = raw.strip()
     if param.choices and raw not in param.choices:
@@ -305,8 +321,13 @@ def parse_value(param: Param, raw: str, ws: Workspace) -> ox.NamedNode | ox.Lite
     if param.kind == "language":
         if raw == "@language":
             raw = ws.config.languages[0] if ws.config.languages else "en"
+        if raw == UNTAGGED:
+            return ox.Literal("")
         if not _LANG.match(raw):
-            raise ParameterError(f"{what}: {raw!r} is not a BCP 47 language tag such as en or de")
+            raise ParameterError(
+                f"{what}: {raw!r} is not a BCP 47 language tag such as en or de "
+                f"(or {UNTAGGED} for literals without one)"
+            )
         return ox.Literal(raw.lower())
     if param.kind == "integer":
         if not re.fullmatch(r"[+-]?[0-9]+", raw):
@@ -323,7 +344,7 @@ def parse_value(param: Param, raw: str, ws: Workspace) -> ox.NamedNode | ox.Lite
                 raise ParameterError(
                     f"{what}: unknown profile role {part!r} (roles: {', '.join(PROFILE_ROLES)})"
                 )
-            out.extend(ws.profile[role])
+            out.extend((profile or ws.profile)[role])
         else:
             out.append(_iri(part, ws, what).value)
     return list(dict.fromkeys(out))
@@ -340,7 +361,9 @@ def _iri(raw: str, ws: Workspace, what: str) -> ox.NamedNode:
         raise ParameterError(f"{what}: {raw!r} is not a valid IRI ({exc})") from None
 
 
-def _values(tpl: Template, raw: dict[str, str], ws: Workspace) -> dict[str, object]:
+def _values(
+    tpl: Template, raw: dict[str, str], ws: Workspace, profile: Profile | None = None
+) -> dict[str, object]:
     unknown = sorted(set(raw) - {p.name for p in tpl.params})
     if unknown:
         names = ", ".join(p.name for p in tpl.params) or "none"
@@ -350,9 +373,9 @@ def _values(tpl: Template, raw: dict[str, str], ws: Workspace) -> dict[str, obje
     out: dict[str, object] = {}
     for p in tpl.params:
         if p.name in raw:
-            out[p.name] = parse_value(p, str(raw[p.name]), ws)
+            out[p.name] = parse_value(p, str(raw[p.name]), ws, profile)
         elif p.default is not None:
-            out[p.name] = parse_value(p, p.default, ws)
+            out[p.name] = parse_value(p, p.default, ws, profile)
         elif p.optional:
             out[p.name] = None
         else:
@@ -371,8 +394,37 @@ def _path(iris: list[str], as_list: bool = False) -> str:
     return terms[0] if len(terms) == 1 else "(" + "|".join(terms) + ")"
 
 
-def bind_template(tpl: Template, raw: dict[str, str], ws: Workspace) -> tuple[str, dict]:
+def _rows(bound: list[Param], values: dict, ws: Workspace, graphs) -> list[tuple]:
+    """The VALUES rows: one, plus one per untagged alternative of a language value.
+
+    A ``language`` value L also takes the untagged literals when one of ``graphs``
+    reads its untagged literals as a language within L (``graphs:`` in ``kgkit.yaml``).
+    """
+    from kgkit.vocab.aliases import lang_matches  # RFC 4647 basic filtering, one home
+
+    untagged = {ws.untagged_language(g) for g in graphs or ()} - {None}
+    rows = [()]
+    for p in bound:
+        v = values[p.name]
+        alts = [v]
+        if (
+            p.kind == "language"
+            and v is not None
+            and v.value
+            and any(lang_matches(u, [v.value]) for u in untagged)
+        ):
+            alts.append(ox.Literal(""))
+        rows = [(*r, a) for r in rows for a in alts]
+    return rows
+
+
+def bind_template(
+    tpl: Template, raw: dict[str, str], ws: Workspace, graphs: list[str] | None = None
+) -> tuple[str, dict]:
     """The query text with the parameters bound, and the parsed values.
+
+    ``graphs``: the names of the graphs the query will read, whose settings
+    (``graphs:`` in ``kgkit.yaml``) change what profile roles and languages mean.
 
     >>> from pathlib import Path
     >>> from kgkit.workspace import Config
@@ -381,13 +433,16 @@ def bind_template(tpl: Template, raw: dict[str, str], ws: Workspace) -> tuple[st
     >>> print(bind_template(t, {"x": "<http://example.org/a>"}, ws)[0], end="")
     SELECT ?x WHERE { VALUES (?x) { (<http://example.org/a>) } ?x ?p ?o }
     """
-    values = _values(tpl, raw, ws)
+    values = _values(tpl, raw, ws, ws.profile_over(graphs or ()))
     used = {t.text[1:] for t in tokenize(tpl.body) if t.kind == "var"}
     bound = [p for p in tpl.params if p.kind != "predicates" and p.name in used]
     if bound:
         head = " ".join(f"?{p.name}" for p in bound)
-        cells = " ".join("UNDEF" if values[p.name] is None else str(values[p.name]) for p in bound)
-        block = f" VALUES ({head}) {{ ({cells}) }}"
+        cells = " ".join(
+            "(" + " ".join("UNDEF" if v is None else str(v) for v in row) + ")"
+            for row in _rows(bound, values, ws, graphs)
+        )
+        block = f" VALUES ({head}) {{ {cells} }}"
     else:
         block = ""
     pieces: list[str] = []
@@ -420,6 +475,13 @@ def bind_template(tpl: Template, raw: dict[str, str], ws: Workspace) -> tuple[st
 
 # ---------------------------------------------------------------------------
 # Running
+
+
+def read_graphs(backend: Backend, graphs: list[str] | None) -> list[str]:
+    """The names of the graphs a query over ``graphs`` reads (``None``: every graph)."""
+    if graphs is not None:
+        return list(graphs)
+    return sorted(set((getattr(backend, "graph_names", None) or {}).values()))
 
 
 def walk_links(
@@ -465,7 +527,7 @@ def run_template(
 ) -> QueryResult:
     """Run a template by name with raw parameter values (``{"root": "ex:water-sports"}``)."""
     tpl = load_template(backend.ws, name)
-    text, values = bind_template(tpl, params or {}, backend.ws)
+    text, values = bind_template(tpl, params or {}, backend.ws, read_graphs(backend, graphs))
     try:
         res = run_query(backend, text, graphs=graphs, allow_service=allow_service)
     except KgkitError as exc:
