@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pyoxigraph as ox
 
-from kgkit.errors import KgkitError
+from kgkit.errors import KgkitError, one_line
 from kgkit.ingest.sources import COMPRESSION_SUFFIXES
 
 __all__ = ["FORMATS", "LINE_BASED", "RDF_FORMATS", "detect_format"]
@@ -40,7 +40,9 @@ def detect_format(label: str, explicit: str | None = None) -> str:
     """
     if explicit:
         if explicit not in FORMATS:
-            raise KgkitError(f"unknown format {explicit!r} (known: {', '.join(FORMATS)})")
+            raise KgkitError(
+                f"unknown format {one_line(repr(explicit))} (known: {', '.join(FORMATS)})"
+            )
         return explicit
     if label == "-":
         raise KgkitError("-: cannot tell the format of standard input; give --format")
@@ -52,5 +54,6 @@ def detect_format(label: str, explicit: str | None = None) -> str:
             if suffixes[-1] in exts:
                 return name
     raise KgkitError(
-        f"{label}: cannot tell the format from the file name; give --format ({', '.join(FORMATS)})"
+        f"{one_line(label)}: cannot tell the format from the file name; "
+        f"give --format ({', '.join(FORMATS)})"
     )

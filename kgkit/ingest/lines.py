@@ -37,6 +37,9 @@ __all__ = [
     "iter_byte_chunks",
     "process_chunk",
     "process_chunks",
+    "has_blank",
+    "scope_blanks",
+    "term_text",
 ]
 
 #: size of the chunks handed to worker processes (cut at the last line end before it)
@@ -148,6 +151,38 @@ def split_lines(data: bytes) -> list[bytes]:
     return out
 
 
+def has_blank(term) -> bool:
+    """Whether ``term`` is a blank node or an RDF 1.2 triple term holding one."""
+    if isinstance(term, ox.BlankNode):
+        return True
+    if isinstance(term, ox.Triple):
+        return has_blank(term.subject) or has_blank(term.object)
+    return False
+
+
+def scope_blanks(term, prefix: str):
+    """``term`` with every blank node label prefixed, inside triple terms too."""
+    if isinstance(term, ox.BlankNode):
+        return ox.BlankNode(prefix + term.value)
+    if isinstance(term, ox.Triple):
+        return ox.Triple(
+            scope_blanks(term.subject, prefix), term.predicate, scope_blanks(term.object, prefix)
+        )
+    return term
+
+
+def term_text(term) -> str:
+    """``term`` in N-Triples; an RDF 1.2 triple term as ``<<( s p o )>>``.
+
+    >>> t = ox.Triple(ox.NamedNode("http://a"), ox.NamedNode("http://b"), ox.BlankNode("c"))
+    >>> term_text(t)
+    '<<( <http://a> <http://b> _:c )>>'
+    """
+    if isinstance(term, ox.Triple):
+        return f"<<( {term_text(term.subject)} {term.predicate} {term_text(term.object)} )>>"
+    return str(term)
+
+
 @dataclass(frozen=True)
 class ChunkSpec:
     """What processing a chunk needs to know; picklable, sent once to each worker."""
@@ -185,7 +220,24 @@ class ChunkResult:
 
 
 def _triple_text(q) -> str:
-    return f"{q.subject} {q.predicate} {q.object} .\n"
+    return f"{term_text(q.subject)} {q.predicate} {term_text(q.object)} .\n"
+
+
+def _each_line(lines: list[bytes], fmt: ox.RdfFormat, base: int):
+    """Parse each line alone: (quads of the good lines, rejects of the bad ones).
+
+    The last resort when lines parsed together fail where none of them fails alone
+    (binary junk, for instance): one statement per line is what N-Triples promises.
+    """
+    quads, rejects = [], []
+    for i, line in enumerate(lines):
+        if not is_statement(line):
+            continue
+        try:
+            quads.extend(ox.parse(input=line.rstrip(b"\r\n") + b"\n", format=fmt))
+        except SyntaxError as exc:
+            rejects.append((base + i, _column(line, exc), _lone_cause(line, exc), decode(line)))
+    return quads, rejects
 
 
 def process_chunk(
@@ -216,19 +268,22 @@ def process_chunk(
     scope = spec.blank_scope
 
     def scoped(t):
-        return ox.BlankNode(scope + t.value) if isinstance(t, ox.BlankNode) else t
+        return scope_blanks(t, scope)
 
     def take(q) -> None:
         res.read += 1
+        obj = q.object
         if keeps is not None and not keeps(q):
             res.filtered += 1
-        elif isinstance(q.subject, ox.BlankNode) or isinstance(q.object, ox.BlankNode):
+        elif isinstance(q.subject, ox.BlankNode) or has_blank(obj):
             if scope is None:
                 blank.append(q)
             else:
-                kept_text.append(f"{scoped(q.subject)} {q.predicate} {scoped(q.object)} .\n")
+                kept_text.append(f"{scoped(q.subject)} {q.predicate} {term_text(scoped(obj))} .\n")
+        elif isinstance(obj, ox.Triple):
+            kept_text.append(f"{q.subject} {q.predicate} {term_text(obj)} .\n")
         else:
-            kept_text.append(f"{q.subject} {q.predicate} {q.object} .\n")
+            kept_text.append(f"{q.subject} {q.predicate} {obj} .\n")
 
     # First the whole chunk as a stream (no list of a million quads held); on an error,
     # forget what it gave and go over the chunk's lines to set the bad ones aside.
@@ -254,7 +309,11 @@ def process_chunk(
         if bad is not None:
             upto = bad[0]
             if len(quads) != sum(1 for x in seg[:upto] if is_statement(x)):
-                quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
+                try:
+                    quads = list(ox.parse(input=b"".join(seg[:upto]), format=fmt))
+                except SyntaxError:
+                    quads, more = _each_line(seg[:upto], fmt, first + pos)
+                    res.rejects.extend(more)
         for q in quads:
             take(q)
         if bad is None:

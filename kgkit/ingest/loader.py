@@ -34,7 +34,7 @@ from pathlib import Path
 import pyoxigraph as ox
 
 import kgkit
-from kgkit.errors import KgkitError, ParseError, StoreError
+from kgkit.errors import KgkitError, ParseError, StoreError, one_line
 from kgkit.ingest import lines as _lines
 from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
 from kgkit.ingest.lines import (
@@ -48,7 +48,8 @@ from kgkit.ingest.lines import (
     process_chunks,
 )
 from kgkit.ingest.slicing import Slice
-from kgkit.ingest.sources import Source, open_source
+from kgkit.ingest.sources import Source, check_input, open_source
+from kgkit.ingest.targets import check_target, replace_file
 from kgkit.store import (
     FileInfo,
     content_graph_iri,
@@ -59,7 +60,7 @@ from kgkit.store import (
     register_import,
     remove_content_graph,
 )
-from kgkit.workspace import Workspace
+from kgkit.workspace import CONFIG_NAME, Workspace
 
 __all__ = [
     "ImportOptions",
@@ -180,7 +181,11 @@ def make_slice(
 
 
 class _Rejects:
-    """The rejects file, written to a temporary name and renamed at the end."""
+    """The rejects file, written to a temporary name and renamed at the end.
+
+    Each bad statement takes two lines: ``# FILE:LINE:COLUMN: cause`` (control characters
+    escaped, so it stays one line) and the statement's text as read.
+    """
 
     def __init__(self, path: Path | None):
         self.path = path
@@ -188,15 +193,24 @@ class _Rejects:
         self._tmp: str | None = None
         self.count = 0
 
+    def _open(self) -> None:
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
+        except OSError as exc:
+            raise KgkitError(
+                f"rejects file {one_line(str(self.path))}: cannot write it "
+                f"({exc.strerror or exc.__class__.__name__})"
+            ) from None
+        self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n", errors="surrogateescape")
+
     def add(self, label: str, line: int | None, column: int | None, cause: str, text: str):
         if self.path is None:
             return
         if self._fh is None:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
-            fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
-            self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+            self._open()
         where = f"{label}:{line}" + (f":{column}" if column else "") if line else label
-        self._fh.write(f"# {where}: {cause}\n")
+        self._fh.write(f"# {one_line(where)}: {one_line(cause)}\n")
         text = text.rstrip("\r\n")
         self._fh.write(text + "\n" if text else "")
         self.count += 1
@@ -205,10 +219,9 @@ class _Rejects:
         if self.path is None:
             return None
         if self._fh is None:
-            fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
-            self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n")
+            self._open()
         self._fh.close()
-        os.replace(self._tmp, self.path)
+        replace_file(self._tmp, self.path)
         self._fh = None
         return str(self.path)
 
@@ -248,10 +261,8 @@ class _Run:
 
     def _scoped(self, term):
         # a label maps to the same node in every batch of a file (no table kept: memory
-        # stays flat however many blank nodes a dump holds)
-        if isinstance(term, ox.BlankNode):
-            return ox.BlankNode(f"{self.scope}{term.value}")
-        return term
+        # stays flat however many blank nodes a dump holds); triple terms are gone into
+        return _lines.scope_blanks(term, self.scope)
 
     def load_quads(self, quads) -> None:
         g, sc = self.content, self._scoped
@@ -510,6 +521,14 @@ def import_into_store(
     formats = [detect_format(x, opts.format) for x in inputs]
     if inputs.count("-") > 1:
         raise KgkitError("-: standard input can be read only once")
+    if opts.rejects is not None and opts.on_error == "skip":
+        check_target(
+            Path(opts.rejects),
+            "rejects file",
+            inputs,
+            ws.root / CONFIG_NAME if ws else None,
+            ws.store_path if ws else None,
+        )
     started, t0 = _now(), time.perf_counter()
     import_id = next_import_id(store)
     content = content_graph_iri(graph, import_id)
@@ -519,26 +538,22 @@ def import_into_store(
     try:
         for n, (label, fmt_name) in enumerate(zip(inputs, formats, strict=True), 1):
             run.scope = f"k{import_id}f{n}x"
-            source = open_source(label)
+            source = open_source(label, lone_cr=fmt_name in ("nt", "nq"))
             try:
                 _load_source(run, source, fmt_name, ws, progress)
+                # read to the end: damaged compressed data stops the import here, before
+                # the graph is switched
                 sha = source.finish()
             except OSError as exc:
-                if isinstance(exc, SyntaxError):
-                    raise
                 raise KgkitError(
-                    f"{label}: cannot read ({exc.__class__.__name__}: {exc})"
+                    f"{source.label}: cannot read ({exc.strerror or exc.__class__.__name__})"
                 ) from None
-            except (EOFError, ValueError) as exc:
-                # truncated or corrupt compressed data
-                if isinstance(exc, SyntaxError | UnicodeDecodeError):
-                    raise
-                raise KgkitError(f"{label}: corrupt {source.compression} data ({exc})") from None
             finally:
                 source.close()
             files.append(
                 FileInfo(
-                    name=label if label == "-" else os.path.basename(label),
+                    # a name that is not UTF-8 is kept with its odd bytes as \xNN
+                    name=label if label == "-" else one_line(os.path.basename(label)),
                     size=source.bytes_read,
                     sha256=sha,
                     format=fmt_name,
@@ -631,8 +646,7 @@ def import_files(
             )
     for label in inputs:
         detect_format(label, opts.format)
-        if label != "-" and not Path(label).is_file():
-            raise KgkitError(f"{label}: no such file")
+        check_input(label)
     out = []
     with open_store(ws.store_path, write=True) as store:
         for name, group in groups:
