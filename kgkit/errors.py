@@ -1,23 +1,54 @@
-"""The errors kgkit raises for bad input or bad state.
+"""The errors kgkit raises for bad input or bad state: every class, in one module.
 
-Every error a user can cause is a :class:`KgkitError`; the command line turns it
-into one line on standard error and exit code 1, in one place
-(:func:`kgkit.cli.main`). Anything else reaching a user is a bug.
+Every error a user can cause is a :class:`KgkitError`. Each class carries the exit
+code of the command that ends with it (``exit_code``); the command line shows any of
+them as ``Error: <one line>`` on standard error and exits with that code, in one place
+(``kgkit.cli._Group.invoke``). Anything else reaching a user is a bug and keeps its
+traceback.
+
+Exit codes:
+
+====  ===========================================================================
+1     bad input or state (every class unless listed below)
+2     a bad argument value (:class:`ArgumentError`; click uses 2 for its own usage errors)
+====  ===========================================================================
+
+Library messages speak of parameters, never of command-line flags: an error names
+the parameters its message mentions in ``params`` (their Python names), and the
+command line rewrites each into the flag or argument of the command being run
+(``batch_size: must be at least 1`` becomes ``--batch-size: must be at least 1``;
+``on_error='skip'`` becomes ``--on-error skip``).
 """
 
 import unicodedata
 
 __all__ = [
     "one_line",
+    "error_lines",
     "KgkitError",
+    "ArgumentError",
+    "InputError",
     "WorkspaceError",
     "ParseError",
+    "NotFoundError",
     "StoreError",
     "StoreInUseError",
     "TemplateError",
     "ParameterError",
     "QueryError",
     "SpecError",
+    "AmbiguousTermError",
+    "BuildFileError",
+    "DemoError",
+    "DiffError",
+    "LintTargetError",
+    "ManifestError",
+    "NothingChangedError",
+    "ProbeError",
+    "RecordError",
+    "ReleaseError",
+    "ReviewError",
+    "VersionError",
 ]
 
 # characters that would break a message over several lines or hide part of it: line and
@@ -61,16 +92,50 @@ def one_line(text: str) -> str:
 
 
 class KgkitError(Exception):
-    """Base of every error caused by input or state, not by a bug."""
+    """Base of every error caused by input or state, not by a bug.
+
+    ``params`` names the library parameters the message mentions (see the module
+    docstring); ``details`` are further lines shown under the one-line message (the
+    candidates of an ambiguous name, for instance).
+    """
 
     exit_code = 1
+    params: tuple[str, ...] = ()
+    details: tuple[str, ...] = ()
+
+    def __init__(self, *args, params: tuple[str, ...] = (), details: tuple[str, ...] = ()):
+        super().__init__(*args)
+        if params:
+            self.params = tuple(params)
+        if details:
+            self.details = tuple(details)
 
 
-class WorkspaceError(KgkitError):
+class ArgumentError(KgkitError):
+    """A value given for a parameter is malformed or out of range.
+
+    ``str()`` gives ``PARAM: cause``; the command line shows the flag instead of ``PARAM``.
+
+    >>> str(ArgumentError("batch_size", "must be at least 1"))
+    'batch_size: must be at least 1'
+    """
+
+    exit_code = 2
+
+    def __init__(self, param: str, cause: str):
+        self.param, self.cause = param, cause
+        super().__init__(f"{param}: {cause}", params=(param,))
+
+
+class InputError(KgkitError):
+    """A file or text given to kgkit cannot be read, or is malformed (see :mod:`kgkit.inputs`)."""
+
+
+class WorkspaceError(InputError):
     """No workspace, or a malformed ``kgkit.yaml``."""
 
 
-class ParseError(KgkitError):
+class ParseError(InputError):
     """A malformed statement in an input file.
 
     ``str()`` gives ``FILE:LINE:COLUMN: cause``.
@@ -83,7 +148,24 @@ class ParseError(KgkitError):
             where += f":{line}"
             if column is not None:
                 where += f":{column}"
-        super().__init__(f"{where}: {cause}")
+        # one line whatever the input held (the cause often quotes it)
+        super().__init__(one_line(f"{where}: {cause}"))
+
+
+class RecordError(InputError):
+    """An entity record that cannot be mapped; ``column`` is 1-based when known.
+
+    Raised while a line is mapped, before its file and line are known; ``str()`` is
+    the cause alone.
+    """
+
+    def __init__(self, cause: str, column: int | None = None):
+        super().__init__(cause)
+        self.cause, self.column = cause, column
+
+
+class NotFoundError(KgkitError):
+    """Something named does not exist: a graph, a template, an entity, a release."""
 
 
 class StoreError(KgkitError):
@@ -94,7 +176,7 @@ class StoreInUseError(StoreError):
     """Another process holds the store."""
 
 
-class TemplateError(KgkitError):
+class TemplateError(InputError):
     """A template is missing or its header is malformed."""
 
 
@@ -106,5 +188,66 @@ class QueryError(KgkitError):
     """A SPARQL query is malformed or refused."""
 
 
-class SpecError(KgkitError):
+class SpecError(InputError):
     """A vocabulary spec or curation file is malformed."""
+
+
+class AmbiguousTermError(KgkitError):
+    """A label names several entities; ``candidates`` lists them, one detail line each."""
+
+    def __init__(self, term: str, candidates: list, described: tuple[str, ...] = ()):
+        self.term, self.candidates = term, candidates
+        super().__init__(
+            f"{term!r} is the label of {len(candidates)} entities; name one by CURIE or IRI:",
+            details=tuple(described),
+        )
+
+
+class BuildFileError(InputError):
+    """A build or release file that cannot be read back."""
+
+
+class ReleaseError(KgkitError):
+    """A release cannot be made (existing folder, missing build output, ...)."""
+
+
+class ManifestError(InputError):
+    """A release folder has no readable manifest."""
+
+
+class VersionError(KgkitError):
+    """A version is malformed or not greater than the previous release."""
+
+
+class NothingChangedError(KgkitError):
+    """No topic changed since the previous release and no version was given."""
+
+
+class DiffError(InputError):
+    """A diff side is not a vocabulary folder or its topic file is malformed."""
+
+
+class LintTargetError(InputError):
+    """The lint target is neither a SKOS file nor a folder holding ``skos.ttl``."""
+
+
+class ReviewError(InputError):
+    """The target of a review page is not a release or build folder."""
+
+
+class ProbeError(InputError):
+    """A release folder or a text to probe cannot be read."""
+
+
+class DemoError(KgkitError):
+    """The demo cannot run in the folder given."""
+
+
+def error_lines(exc: KgkitError, message: str | None = None) -> list[str]:
+    """What a user sees of ``exc``: its message (or ``message``, e.g. with flags spelt
+    out) as one line, then its detail lines, each escaped by :func:`one_line`.
+
+    >>> error_lines(KgkitError("bad\\nthing", details=("  a", "  b")))
+    ['bad\\\\nthing', '  a', '  b']
+    """
+    return [one_line(str(exc) if message is None else message), *map(one_line, exc.details)]

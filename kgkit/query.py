@@ -41,7 +41,7 @@ from typing import TextIO
 import pyoxigraph as ox
 
 import kgkit
-from kgkit.errors import KgkitError, QueryError
+from kgkit.errors import ArgumentError, NotFoundError, QueryError
 from kgkit.store import KG, PROVENANCE_GRAPH, current_graphs, open_store
 from kgkit.workspace import Workspace
 
@@ -202,7 +202,9 @@ def syntax_error(text: str, exc: Exception, where: str = "query") -> QueryError:
     lines = text.splitlines() or [""]
     shown = lines[line - 1] if 0 < line <= len(lines) else ""
     caret = " " * max(col - 1, 0) + "^"
-    return QueryError(f"{where}:{line}:{col}: SPARQL syntax error: {cause}\n  {shown}\n  {caret}")
+    return QueryError(
+        f"{where}:{line}:{col}: SPARQL syntax error: {cause}", details=(f"  {shown}", f"  {caret}")
+    )
 
 
 def _check_guards(text: str, allow_update: bool, allow_service: bool) -> str:
@@ -210,12 +212,14 @@ def _check_guards(text: str, allow_update: bool, allow_service: bool) -> str:
     if form == "UPDATE" and not allow_update:
         raise QueryError(
             "this is a SPARQL update, which changes the store; "
-            "refused (give --allow-update to run it)"
+            "refused (give allow_update=True to run it)",
+            params=("allow_update",),
         )
     if has_service(text) and not allow_service:
         raise QueryError(
             "the query holds a SERVICE clause, which would send requests over the network; "
-            "refused (give --allow-service to run it)"
+            "refused (give allow_service=True to run it)",
+            params=("allow_service",),
         )
     return form
 
@@ -238,7 +242,7 @@ class Backend:
         by_name = {v: k for k, v in self.graph_names.items()}
         missing = [g for g in graphs if g not in by_name]
         if missing:
-            raise KgkitError(
+            raise NotFoundError(
                 f"no graph named {missing[0]!r} "
                 f"(graphs: {', '.join(sorted(by_name)) or 'none yet'})"
             )
@@ -260,7 +264,10 @@ class EmbeddedBackend(Backend):
     def execute(self, text: str, form: str, graphs: list[str] | None) -> QueryResult:
         if form == "UPDATE":
             if not self.writable:
-                raise QueryError("the store is open read-only; an update needs --allow-update")
+                raise QueryError(
+                    "the store is open read-only; an update needs allow_update=True",
+                    params=("allow_update",),
+                )
             try:
                 self.store.update(text, prefixes=dict(self.ws.prefixes))
             except SyntaxError as exc:
@@ -371,7 +378,10 @@ class EndpointBackend(Backend):
                 raise syntax_error(text, exc) from None
         dataset = self.content_graphs(graphs) if self.graph_names else None
         if graphs is not None and not self.graph_names:
-            raise KgkitError(f"{self.url}: the endpoint has no kgkit graphs; drop --graph")
+            raise QueryError(
+                f"{self.url}: the endpoint has no kgkit graphs; leave out graphs",
+                params=("graphs",),
+            )
         if form in ("CONSTRUCT", "DESCRIBE"):
             res = self._post({"query": full}, "application/n-triples", dataset)
             return QueryResult(kind="graph", triples=self._triples(res))
@@ -654,20 +664,21 @@ def write_result(
     are for CONSTRUCT and DESCRIBE results (``table`` shows those as N-Triples too).
     """
     if fmt not in FORMATS:
-        raise KgkitError(f"unknown output format {fmt!r} (formats: {', '.join(FORMATS)})")
+        raise ArgumentError("fmt", f"unknown output format {fmt!r} (formats: {', '.join(FORMATS)})")
     if res.kind == "update":
         out.write("update applied\n")
         return
     if res.kind == "graph":
         if fmt in ("json", "csv", "tsv"):
-            raise KgkitError(
-                f"--format {fmt} is for SELECT and ASK results; "
-                "a CONSTRUCT or DESCRIBE query gives --format nt or ttl"
+            raise QueryError(
+                f"fmt={fmt!r} is for SELECT and ASK results; "
+                "a CONSTRUCT or DESCRIBE query gives fmt='nt' or fmt='ttl'",
+                params=("fmt",),
             )
         _write_graph(res, out, fmt, ws)
         return
     if fmt in ("nt", "ttl"):
-        raise KgkitError(f"--format {fmt} is for CONSTRUCT and DESCRIBE results")
+        raise QueryError(f"fmt={fmt!r} is for CONSTRUCT and DESCRIBE results", params=("fmt",))
     if res.kind == "ask" and fmt in ("csv", "tsv"):
         # the W3C CSV/TSV formats have no boolean form
         out.write(("true" if res.boolean else "false") + "\n")

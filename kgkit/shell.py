@@ -23,7 +23,7 @@ import shlex
 from collections.abc import Callable
 from pathlib import Path
 
-from kgkit.errors import KgkitError
+from kgkit.errors import KgkitError, error_lines
 from kgkit.query import FORMATS, Backend, run_query, tokenize, write_result
 from kgkit.templates import list_templates, run_template
 
@@ -80,7 +80,9 @@ class _Sink:
 
 class Shell:
     """One session. ``read(prompt)`` returns a line or ``None`` at the end of input;
-    ``write(text)`` shows text; ``remember(statement)`` keeps it in the history."""
+    ``write(text)`` shows text; ``remember(statement)`` keeps it in the history;
+    ``describe(error)`` gives the lines shown for an error (default: its message and
+    details, escaped)."""
 
     def __init__(
         self,
@@ -91,6 +93,7 @@ class Shell:
         fmt: str = "table",
         graphs: list[str] | None = None,
         width: int | None = None,
+        describe: Callable[[KgkitError], list[str]] = error_lines,
     ):
         self.backend = backend
         self.read = read
@@ -99,6 +102,7 @@ class Shell:
         self.fmt = fmt
         self.graphs = graphs
         self.width = width
+        self.describe = describe
 
     def loop(self) -> None:
         buf: list[str] = []
@@ -134,7 +138,7 @@ class Shell:
         try:
             self._show(run_query(self.backend, text, graphs=self.graphs))
         except KgkitError as exc:
-            self.write(f"Error: {exc}\n")
+            self.write("Error: " + "\n".join(self.describe(exc)) + "\n")
         except KeyboardInterrupt:  # Ctrl-C stops a long query and output, not the session
             self.write("\n(interrupted)\n")
 
@@ -187,5 +191,5 @@ class Shell:
             else:
                 self.write(f"Error: unknown command :{name} (:help lists them)\n")
         except KgkitError as exc:
-            self.write(f"Error: {exc}\n")
+            self.write("Error: " + "\n".join(self.describe(exc)) + "\n")
         return None

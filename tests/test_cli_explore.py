@@ -114,7 +114,7 @@ def test_run_template(kg):
     assert r.output.startswith("Error: parameter 'root' (iri): 'x> } ; DROP ALL ; #' is neither")
     assert kg("query", "ASK { t:rowing ?p ?o }").output == "true\n"
     r = kg("run", "descendants", "-p", "root")
-    assert r.exit_code == 1 and "write -p PARAM=VALUE" in r.output
+    assert r.exit_code == 2 and "write -p PARAM=VALUE" in r.output
     r = kg("run", "nothing-like-it")
     assert r.exit_code == 1 and "no template named 'nothing-like-it'" in r.output
 

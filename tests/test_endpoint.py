@@ -92,7 +92,7 @@ def test_endpoint_errors_are_one_line(pair):
             run_query(b, "SELECT * WHERE { ?s ?p }")
         with pytest.raises(QueryError, match="no updates to a remote endpoint"):
             run_query(b, "DROP ALL", allow_update=True)
-        with pytest.raises(QueryError, match="--allow-update"):
+        with pytest.raises(QueryError, match="allow_update=True"):
             run_query(b, "DROP ALL")
     bad = endpoint_workspace(
         local, remote.config.endpoint.replace("/query", "/nowhere"), remote.root.parent / "bad"

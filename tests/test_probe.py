@@ -179,7 +179,7 @@ def test_cli_probe_errors(runner, tmp_path):
     bad.write_bytes(b"ok \xff")
     res = runner.invoke(cli, ["probe", str(LEX), "-f", str(bad)])
     assert res.exit_code == 1
-    assert res.output == f"Error: {bad}: not UTF-8 text (byte 3)\n"
+    assert res.output == f"Error: {bad}:1:4: not UTF-8 text (byte \\xff)\n"
     res = runner.invoke(cli, ["probe", str(tmp_path), "x"])
     assert res.exit_code == 1
     assert res.output == f"Error: {tmp_path}: no lexicon.tsv here; give a release or build folder\n"

@@ -81,7 +81,7 @@ def test_workspace_prefixes_are_added_unless_declared(ws):
 def test_updates_are_refused_and_change_nothing(ws, text):
     with open_store(ws.store_path) as store:
         before = len(store)
-    with connect(ws) as b, pytest.raises(QueryError, match="--allow-update"):
+    with connect(ws) as b, pytest.raises(QueryError, match="allow_update=True"):
         run_query(b, text)
     with open_store(ws.store_path) as store:
         assert len(store) == before
@@ -157,7 +157,7 @@ def test_refused_service_query_sends_nothing(ws):
     listener = _Listener()
     try:
         q = f"SELECT * WHERE {{ SERVICE <http://127.0.0.1:{listener.port}/sparql> {{ ?s ?p ?o }} }}"
-        with connect(ws) as b, pytest.raises(QueryError, match="--allow-service"):
+        with connect(ws) as b, pytest.raises(QueryError, match="allow_service=True"):
             run_query(b, q)
         # the listener does receive a request when SERVICE is allowed: the check is real
         with connect(ws) as b, pytest.raises(KgkitError):
@@ -179,8 +179,7 @@ def test_syntax_error_has_line_column_and_caret(ws):
     q = "SELECT ?s\nWHERE {\n  ?s <bad iri> ?o }"
     with connect(ws) as b, pytest.raises(QueryError) as err:
         run_query(b, q)
-    msg = str(err.value)
-    first, shown, caret = msg.splitlines()
+    first, shown, caret = str(err.value), *err.value.details
     assert first.startswith("query:3:")
     assert "SPARQL syntax error" in first
     col = int(first.split(":")[2])

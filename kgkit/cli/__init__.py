@@ -11,16 +11,16 @@ from __future__ import annotations
 
 import functools
 import importlib
-import re
 import sys
 
 import click
 
 import kgkit
-from kgkit.errors import ArgumentError, KgkitError, one_line
+from kgkit.cli.common import flag_message
+from kgkit.errors import ArgumentError, KgkitError, error_lines
 from kgkit.inputs import check_text
 
-__all__ = ["UserError", "cli", "flag_message", "flag_name", "main"]
+__all__ = ["UserError", "cli", "main"]
 
 
 class _Group(click.Group):
@@ -53,51 +53,14 @@ class UserError(click.ClickException):
     lines, and the error's own exit code."""
 
     def __init__(self, exc: KgkitError, params: list[click.Parameter]):
-        super().__init__(one_line(flag_message(exc, params)))
+        first, *self.details = error_lines(exc, flag_message(exc, params))
+        super().__init__(first)
         self.exit_code = exc.exit_code
-        self.details = [one_line(d) for d in exc.details]
 
     def show(self, file=None) -> None:
         super().show(file)
         for line in self.details:
             click.echo(line, err=True)
-
-
-def flag_name(param: click.Parameter) -> str:
-    """How the command line spells a parameter: its long flag, or its argument name."""
-    if isinstance(param, click.Option):
-        longs = [o for o in param.opts if o.startswith("--")]
-        return (longs or param.opts)[0]
-    return param.human_readable_name
-
-
-def flag_message(exc: KgkitError, params: list[click.Parameter]) -> str:
-    """``str(exc)`` with each library parameter it names written as its flag.
-
-    ``batch_size`` becomes ``--batch-size`` and ``on_error='skip'`` ``--on-error skip``.
-    """
-    text = str(exc)
-    by_name = {}
-    for p in params:
-        by_name.setdefault(p.name, p)
-    for name in exc.params:
-        p = by_name.get(name)
-        if p is None:
-            continue
-        flag = flag_name(p)
-
-        def spell(m: re.Match, flag=flag) -> str:
-            value = m.group(1)
-            if value is None:
-                return flag
-            return f"{flag} {value.strip(chr(39) + chr(34))}"
-
-        text = re.sub(
-            rf"(?<![\w.-]){re.escape(name)}(?:=('[^']*'|\"[^\"]*\"|[^\s,;:)]+))?(?![\w-])",
-            spell,
-            text,
-        )
-    return text
 
 
 def _values(value) -> list[str]:

@@ -1,15 +1,18 @@
-"""Helpers shared by the command modules: finding the workspace, progress, JSON."""
+"""Helpers shared by the command modules: finding the workspace, progress, JSON, and
+the flags that stand for the library parameters an error message names."""
 
 from __future__ import annotations
 
 import json
+import re
 import sys
 
 import click
 
+from kgkit.errors import KgkitError
 from kgkit.workspace import Workspace, find_workspace, load_workspace
 
-__all__ = ["get_workspace", "echo_json", "is_terminal"]
+__all__ = ["echo_json", "flag_message", "flag_name", "get_workspace", "is_terminal"]
 
 
 def get_workspace(ctx: click.Context) -> Workspace:
@@ -25,3 +28,40 @@ def echo_json(data: object) -> None:
 
 def is_terminal() -> bool:
     return sys.stdout.isatty() and sys.stderr.isatty()
+
+
+def flag_name(param: click.Parameter) -> str:
+    """How the command line spells a parameter: its long flag, or its argument name."""
+    if isinstance(param, click.Option):
+        longs = [o for o in param.opts if o.startswith("--")]
+        return (longs or param.opts)[0]
+    return param.human_readable_name
+
+
+def flag_message(exc: KgkitError, params: list[click.Parameter]) -> str:
+    """``str(exc)`` with each library parameter it names written as its flag.
+
+    ``batch_size`` becomes ``--batch-size`` and ``on_error='skip'`` ``--on-error skip``.
+    """
+    text = str(exc)
+    by_name = {}
+    for p in params:
+        by_name.setdefault(p.name, p)
+    for name in exc.params:
+        p = by_name.get(name)
+        if p is None:
+            continue
+        flag, is_flag = flag_name(p), getattr(p, "is_flag", False)
+
+        def spell(m: re.Match, flag=flag, is_flag=is_flag) -> str:
+            value = m.group(1)
+            if value is None or is_flag:
+                return flag
+            return f"{flag} {value.strip(chr(39) + chr(34))}"
+
+        text = re.sub(
+            rf"(?<![\w.-]){re.escape(name)}(?:=('[^']*'|\"[^\"]*\"|[^\s,;:)]+))?(?![\w-])",
+            spell,
+            text,
+        )
+    return text

@@ -8,7 +8,7 @@ from dataclasses import asdict
 
 import click
 
-from kgkit.cli.common import get_workspace
+from kgkit.cli.common import flag_message, get_workspace
 from kgkit.entities import (
     find_entities,
     format_card,
@@ -17,7 +17,8 @@ from kgkit.entities import (
     show_entity,
     tree_of,
 )
-from kgkit.errors import KgkitError
+from kgkit.errors import QueryError, error_lines
+from kgkit.inputs import decode_text, file_error, read_text_file
 from kgkit.query import FORMATS, connect, run_query, write_result
 from kgkit.shell import Shell, history_path
 from kgkit.templates import list_templates, load_template, run_template
@@ -91,23 +92,19 @@ def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_
     """
     ws = get_workspace(ctx)
     if path and sparql:
-        raise KgkitError("give the query as an argument or with --file, not both")
+        raise click.UsageError("give the query as an argument or with --file, not both")
     if path:
-        try:
-            with open(path, encoding="utf-8") as fh:
-                text = fh.read()
-        except OSError as exc:
-            raise KgkitError(f"{path}: cannot read ({exc.strerror})") from None
-        except UnicodeDecodeError:
-            raise KgkitError(f"{path}: not UTF-8 text") from None
+        text = read_text_file(path, "a SPARQL query")
     elif sparql is None or sparql == "-":
         if sparql is None and sys.stdin.isatty():
-            raise KgkitError("no query: give it as an argument, with --file, or on standard input")
-        text = sys.stdin.read()
+            raise click.UsageError(
+                "no query: give it as an argument, with --file, or on standard input"
+            )
+        text = decode_text(sys.stdin.buffer.read(), "standard input")
     else:
         text = sparql
     if not text.strip():
-        raise KgkitError("the query is empty")
+        raise QueryError("the query is empty")
     with connect(ws, write=allow_update, timeout=timeout) as backend:
         res = run_query(
             backend,
@@ -124,9 +121,9 @@ def _params(pairs: tuple[str, ...]) -> dict[str, str]:
     for pair in pairs:
         key, eq, value = pair.partition("=")
         if not eq or not key:
-            raise KgkitError(f"-p {pair!r}: write -p PARAM=VALUE")
+            raise click.BadParameter(f"{pair!r}: write -p PARAM=VALUE", param_hint="-p")
         if key in out:
-            raise KgkitError(f"-p {key}: given twice")
+            raise click.BadParameter(f"{key}: given twice", param_hint="-p")
         out[key] = value
     return out
 
@@ -291,7 +288,16 @@ def shell_command(ctx, fmt, graphs):
     interactive = sys.stdin.isatty()
     with connect(ws) as backend:
         path = history_path(backend)
-        path.parent.mkdir(parents=True, exist_ok=True)
+        keep = [True]  # history is kept until writing it fails once
+
+        def warn_history(exc: OSError) -> None:
+            keep[0] = False
+            click.echo(f"Warning: {file_error(path, exc, 'write')}; history is not kept", err=True)
+
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            warn_history(exc)
         rl = None
         if interactive:
             try:
@@ -320,8 +326,12 @@ def shell_command(ctx, fmt, graphs):
         def remember(statement: str) -> None:
             if rl is not None:
                 rl.add_history(statement)
-            with open(path, "a", encoding="utf-8") as fh:
-                fh.write(statement + "\n")
+            if keep[0]:
+                try:
+                    with open(path, "a", encoding="utf-8", errors="surrogateescape") as fh:
+                        fh.write(statement + "\n")
+                except OSError as exc:
+                    warn_history(exc)
 
         if interactive:
             click.echo("kgkit shell: end queries with ;  (:help for commands, :quit to leave)")
@@ -332,6 +342,7 @@ def shell_command(ctx, fmt, graphs):
             remember,
             fmt=fmt,
             graphs=list(graphs) or None,
+            describe=lambda exc: error_lines(exc, flag_message(exc, query_command.params)),
         ).loop()
 
 

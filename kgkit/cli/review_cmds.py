@@ -9,7 +9,8 @@ from pathlib import Path
 import click
 
 from kgkit.cli.common import echo_json
-from kgkit.errors import KgkitError
+from kgkit.errors import ProbeError
+from kgkit.inputs import decode_text, read_text_file
 from kgkit.probe import (
     DEFAULT_THRESHOLD,
     curation_edits_for,
@@ -50,18 +51,8 @@ def _read_input(text: str | None, file: str | None) -> str:
     if text is not None:
         return text
     if file == "-":
-        data = sys.stdin.buffer.read()
-        where = "standard input"
-    else:
-        try:
-            data = Path(file).read_bytes()
-        except OSError as exc:
-            raise KgkitError(f"{file}: cannot read ({exc.strerror})") from None
-        where = file
-    try:
-        return data.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise KgkitError(f"{where}: not UTF-8 text (byte {exc.start})") from None
+        return decode_text(sys.stdin.buffer.read(), "standard input", ProbeError)
+    return read_text_file(file, "a text to probe", ProbeError)
 
 
 def _line_col(text: str, offset: int) -> tuple[int, int]:

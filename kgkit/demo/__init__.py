@@ -24,7 +24,7 @@ from pathlib import Path
 
 from kgkit.demo.generate import REFRESH, write_corpus, write_dumps
 from kgkit.entities import find_entities, format_matches
-from kgkit.errors import KgkitError
+from kgkit.errors import DemoError
 from kgkit.ingest import ImportOptions, import_files, make_slice
 from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
 from kgkit.query import connect, run_query
@@ -40,10 +40,6 @@ __all__ = ["DemoStep", "DemoError", "iter_demo", "run_demo", "SPEC_NAME"]
 SPEC_NAME = "tidewell"
 _PREFIX_LINE = "  tw:   http://demo.kgkit.invalid/e/\n"
 _P = "http://demo.kgkit.invalid/p/"
-
-
-class DemoError(KgkitError):
-    """The demo cannot run in the folder given."""
 
 
 @dataclass

@@ -1,0 +1,520 @@
+"""The one place where what reaches kgkit from outside is read and checked.
+
+Files, command-line text, YAML and JSON all come in through these functions, which
+turn every problem into one :class:`~kgkit.errors.KgkitError` of one line naming the
+file (and line, where there is one) and the cause:
+
+- :func:`read_text_file` / :func:`read_bytes_file`: a missing file, a folder, a device
+  or pipe, no permission, a file over its size limit, text that is not UTF-8.
+- :func:`load_yaml` / :func:`read_yaml`: YAML with limits on nesting, alias expansion
+  and size, duplicate keys refused, integers bounded, no ``.nan`` or ``.inf``.
+- :func:`load_json` / :func:`read_json`: the same limits for JSON.
+- :func:`check_text` (text that is not UTF-8, e.g. a command-line argument),
+  :func:`parse_int` (an integer with bounds), :func:`check_number`.
+- :func:`file_error`: any ``OSError`` met reading or writing a path, as one line.
+
+Messages show control characters escaped (:func:`kgkit.errors.one_line`).
+
+>>> load_yaml("a: 1\\nb: [x, y]\\n", "f.yaml").data
+{'a': 1, 'b': ['x', 'y']}
+>>> load_yaml("a: 1\\na: 2\\n", "f.yaml").data
+Traceback (most recent call last):
+...
+kgkit.errors.InputError: f.yaml:2: key 'a' given twice (first on line 1)
+>>> parse_int("12", "max_depth", minimum=0)
+12
+"""
+
+from __future__ import annotations
+
+import errno
+import json
+import math
+import os
+import re
+import stat
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import yaml
+
+from kgkit.errors import ArgumentError, InputError, KgkitError, one_line
+
+__all__ = [
+    "MAX_INT_DIGITS",
+    "MAX_JSON_DEPTH",
+    "MAX_TEXT_BYTES",
+    "MAX_YAML_DEPTH",
+    "MAX_YAML_NODES",
+    "YamlDocument",
+    "check_number",
+    "check_text",
+    "file_error",
+    "load_json",
+    "load_yaml",
+    "one_line",
+    "parse_int",
+    "read_bytes_file",
+    "read_json",
+    "read_text_file",
+    "read_yaml",
+]
+
+#: Largest file read whole as text (YAML settings, specs, curation, templates, reports).
+MAX_TEXT_BYTES = 64 << 20
+#: Deepest nesting of mappings and lists in a YAML file (kgkit's own files need under 10).
+MAX_YAML_DEPTH = 64
+#: Most nodes a YAML document may hold once its aliases are expanded (an alias bomb
+#: of a few lines expands to billions; 20,000 curation edits hold about 200,000).
+MAX_YAML_NODES = 2_000_000
+#: Deepest nesting in a JSON document kgkit reads whole (reports, manifests).
+MAX_JSON_DEPTH = 200
+#: Most digits of an integer in any input (Python refuses to convert over 4,300).
+MAX_INT_DIGITS = 30
+
+_INT = re.compile(r"[+-]?[0-9]+")
+
+
+# --- text ----------------------------------------------------------------------------
+
+
+def check_text(value: str, what: str, error: type[KgkitError] = ArgumentError) -> str:
+    """``value`` if it is valid Unicode text, else one line naming ``what``.
+
+    Text from the command line or a file name that was not UTF-8 arrives with its bad
+    bytes kept as lone surrogates; nothing downstream can encode it.
+
+    >>> check_text("café", "term")
+    'café'
+    >>> check_text("caf\\udce9", "term")
+    Traceback (most recent call last):
+    ...
+    kgkit.errors.ArgumentError: term: not UTF-8 text (byte \\xe9 at position 4)
+    """
+    try:
+        value.encode("utf-8")
+    except UnicodeEncodeError as exc:
+        bad = one_line(value[exc.start])
+        cause = f"not UTF-8 text (byte {bad} at position {exc.start + 1})"
+        if error is ArgumentError:
+            raise ArgumentError(what, cause) from None
+        raise error(f"{what}: {cause}") from None
+    return value
+
+
+def parse_int(
+    text: str | int,
+    what: str,
+    minimum: int | None = None,
+    maximum: int | None = None,
+    error: type[KgkitError] = ArgumentError,
+) -> int:
+    """An integer read from ``text``, within ``minimum``..``maximum`` and at most
+    :data:`MAX_INT_DIGITS` digits long.
+
+    >>> parse_int("-3", "n")
+    -3
+    >>> parse_int("9" * 5000, "max_depth")
+    Traceback (most recent call last):
+    ...
+    kgkit.errors.ArgumentError: max_depth: an integer of 5000 digits is too long (at most 30)
+    """
+
+    def fail(cause: str):
+        if error is ArgumentError:
+            return ArgumentError(what, cause)
+        return error(f"{what}: {cause}")
+
+    if isinstance(text, bool):
+        raise fail(f"must be an integer, got {text!r}")
+    if isinstance(text, int):
+        value = text
+        if value.bit_length() > MAX_INT_DIGITS * 4:
+            raise fail(f"an integer of {len(str(value))} digits is too long")
+    else:
+        s = str(text).strip().replace("_", "")
+        if not _INT.fullmatch(s):
+            raise fail(f"must be an integer, got {one_line(repr(str(text)[:40]))}")
+        digits = len(s.lstrip("+-"))
+        if digits > MAX_INT_DIGITS:
+            raise fail(f"an integer of {digits} digits is too long (at most {MAX_INT_DIGITS})")
+        value = int(s)
+    if minimum is not None and value < minimum:
+        raise fail(f"must be at least {minimum}, got {value}")
+    if maximum is not None and value > maximum:
+        raise fail(f"must be at most {maximum}, got {value}")
+    return value
+
+
+def check_number(value: object, what: str, error: type[KgkitError] = ArgumentError) -> float:
+    """``value`` as a finite float; booleans, text, NaN and infinities are refused.
+
+    >>> check_number(0.5, "min")
+    0.5
+    >>> check_number(float("nan"), "min")
+    Traceback (most recent call last):
+    ...
+    kgkit.errors.ArgumentError: min: must be a finite number, got nan
+    """
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        cause = f"must be a number, got {value!r}"
+    elif isinstance(value, int):
+        return float(parse_int(value, what, error=error))
+    elif not math.isfinite(value):
+        cause = f"must be a finite number, got {value!r}"
+    else:
+        return float(value)
+    if error is ArgumentError:
+        raise ArgumentError(what, cause)
+    raise error(f"{what}: {cause}")
+
+
+# --- files ---------------------------------------------------------------------------
+
+_CAUSES = {
+    errno.ENOENT: "no such file",
+    errno.EACCES: "permission denied",
+    errno.EPERM: "operation not permitted",
+    errno.EISDIR: "is a folder, not a file",
+    errno.ENOTDIR: "a part of the path is not a folder",
+    errno.EROFS: "read-only file system",
+    errno.ENOSPC: "no space left on the device",
+    errno.ELOOP: "too many symbolic links",
+    errno.ENAMETOOLONG: "file name too long",
+}
+
+
+def file_error(
+    path: Path | str, exc: OSError, action: str = "read", error: type[KgkitError] = InputError
+) -> KgkitError:
+    """One line for an ``OSError`` met when ``action`` (read, write, create...) ``path``.
+
+    >>> str(file_error("/x/y", PermissionError(13, "Permission denied"), "write"))
+    '/x/y: cannot write (permission denied)'
+    """
+    cause = _CAUSES.get(exc.errno or 0) or (exc.strerror or type(exc).__name__).lower()
+    if exc.errno == errno.ENOENT and action == "read":
+        return error(f"{one_line(str(path))}: no such file")
+    return error(f"{one_line(str(path))}: cannot {action} ({cause})")
+
+
+def _open_regular(path: Path, what: str, error: type[KgkitError], max_bytes: int):
+    """An open binary file object of the regular file ``path`` (no device, folder, pipe)."""
+    label = one_line(str(path))
+    try:
+        st = os.stat(path)
+    except OSError as exc:
+        raise file_error(path, exc, "read", error) from None
+    if stat.S_ISDIR(st.st_mode):
+        raise error(f"{label}: is a folder, not {what}")
+    if not stat.S_ISREG(st.st_mode):
+        raise error(f"{label}: not a regular file (a device, pipe or socket), not {what}")
+    if st.st_size > max_bytes:
+        raise error(f"{label}: {st.st_size} bytes, more than the {max_bytes} read for {what}")
+    try:
+        return open(path, "rb")  # noqa: SIM115 - the caller closes it
+    except OSError as exc:
+        raise file_error(path, exc, "read", error) from None
+
+
+def read_bytes_file(
+    path: Path | str,
+    what: str = "a file",
+    error: type[KgkitError] = InputError,
+    max_bytes: int = MAX_TEXT_BYTES,
+) -> bytes:
+    """The bytes of the regular file ``path``, or one line saying why it cannot be read."""
+    with _open_regular(Path(path), what, error, max_bytes) as fh:
+        try:
+            data = fh.read(max_bytes + 1)
+        except OSError as exc:
+            raise file_error(path, exc, "read", error) from None
+    if len(data) > max_bytes:
+        raise error(f"{one_line(str(path))}: more than the {max_bytes} bytes read for {what}")
+    return data
+
+
+def decode_text(data: bytes, label: str, error: type[KgkitError] = InputError) -> str:
+    """``data`` decoded as UTF-8 (a leading byte-order mark dropped), or one line naming
+    the line and column of the first byte that is not UTF-8."""
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise error(
+            f"{one_line(label)}:{line}:{column}: not UTF-8 text (byte \\x{data[exc.start]:02x})"
+        ) from None
+    return text[1:] if text.startswith("\ufeff") else text
+
+
+def read_text_file(
+    path: Path | str,
+    what: str = "a text file",
+    error: type[KgkitError] = InputError,
+    max_bytes: int = MAX_TEXT_BYTES,
+) -> str:
+    """The UTF-8 text of the regular file ``path``, or one line saying why not.
+
+    A missing file, a folder, a device or pipe, a file without read permission, one
+    over ``max_bytes`` and bytes that are not UTF-8 each give ``error`` with a one-line
+    message naming the file (and the line for bad bytes). A byte-order mark is dropped.
+    """
+    return decode_text(read_bytes_file(path, what, error, max_bytes), str(path), error)
+
+
+# --- YAML ----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class YamlDocument:
+    """A loaded YAML document: its data and the 1-based line of each key path.
+
+    Key paths are dotted with list positions in brackets: ``select[0].params.root``.
+    """
+
+    data: object
+    source: str
+    lines: dict[str, int] = field(default_factory=dict)
+
+    def line_of(self, key: str) -> int | None:
+        """The line of ``key``, or of its nearest enclosing key that has one."""
+        while key:
+            line = self.lines.get(key)
+            if line is not None:
+                return line
+            parent = re.sub(r"(\.[^.\[]*|\[\d+\])$", "", key)
+            if parent == key:
+                break
+            key = parent
+        return None
+
+
+class _LimitedLoader(getattr(yaml, "CSafeLoader", yaml.SafeLoader)):  # type: ignore[misc]
+    """The safe loader with duplicate keys refused and numbers bounded."""
+
+    def construct_mapping(self, node, deep=False):
+        if isinstance(node, yaml.MappingNode):
+            seen: dict[object, int] = {}
+            for key_node, _ in node.value:
+                if not isinstance(key_node, yaml.ScalarNode) or key_node.tag.endswith(":merge"):
+                    continue
+                key = self.construct_object(key_node)
+                try:
+                    first = seen.get(key)
+                except TypeError:
+                    continue
+                if first is not None:
+                    raise yaml.constructor.ConstructorError(
+                        None,
+                        None,
+                        f"key {key!r} given twice (first on line {first})",
+                        key_node.start_mark,
+                    )
+                seen[key] = key_node.start_mark.line + 1
+        return super().construct_mapping(node, deep=deep)
+
+    def construct_yaml_int(self, node):
+        digits = len(re.sub(r"[^0-9a-fA-F]", "", str(node.value)))
+        if digits > MAX_INT_DIGITS:
+            raise yaml.constructor.ConstructorError(
+                None,
+                None,
+                f"an integer of {digits} digits is too long (at most {MAX_INT_DIGITS})",
+                node.start_mark,
+            )
+        return super().construct_yaml_int(node)
+
+    def construct_yaml_float(self, node):
+        value = super().construct_yaml_float(node)
+        if not math.isfinite(value):
+            raise yaml.constructor.ConstructorError(
+                None,
+                None,
+                f"{node.value!r} is not a finite number",
+                node.start_mark,
+            )
+        return value
+
+
+_LimitedLoader.add_constructor("tag:yaml.org,2002:int", _LimitedLoader.construct_yaml_int)
+_LimitedLoader.add_constructor("tag:yaml.org,2002:float", _LimitedLoader.construct_yaml_float)
+
+
+def _yaml_fail(source: str, line: int | None, cause: str, error: type[KgkitError]):
+    where = f"{one_line(source)}:{line}" if line else one_line(source)
+    return error(f"{where}: {cause}")
+
+
+def _check_events(loader, source: str, error, max_depth: int, max_nodes: int) -> None:
+    """Walk the parser's events once: nesting depth and expanded size within limits.
+
+    Sizes are counted, never expanded, so an alias bomb is refused at once.
+    """
+    depth = 0
+    stack: list[list] = [[0, None]]  # [expanded nodes so far, anchor of the collection]
+    sizes: dict[str, int] = {}
+    total = 0
+    while loader.check_event():
+        ev = loader.get_event()
+        if isinstance(ev, yaml.ScalarEvent | yaml.AliasEvent):
+            n = 1 if isinstance(ev, yaml.ScalarEvent) else sizes.get(ev.anchor, 1)
+            if isinstance(ev, yaml.ScalarEvent) and ev.anchor:
+                sizes[ev.anchor] = 1
+            stack[-1][0] += n
+            total += n
+        elif isinstance(ev, yaml.SequenceStartEvent | yaml.MappingStartEvent):
+            depth += 1
+            if depth > max_depth:
+                raise _yaml_fail(
+                    source,
+                    ev.start_mark.line + 1,
+                    f"nested more than {max_depth} levels deep",
+                    error,
+                )
+            stack.append([1, ev.anchor])
+            total += 1
+        elif isinstance(ev, yaml.SequenceEndEvent | yaml.MappingEndEvent):
+            depth -= 1
+            n, anchor = stack.pop()
+            if anchor:
+                sizes[anchor] = n
+            stack[-1][0] += n
+        if total > max_nodes:
+            raise _yaml_fail(
+                source,
+                ev.start_mark.line + 1,
+                f"more than {max_nodes} values once its aliases are expanded",
+                error,
+            )
+
+
+def _key_lines(node) -> dict[str, int]:
+    """Dotted key path -> 1-based line, walking each node once (aliases not re-entered)."""
+    out: dict[str, int] = {}
+    seen: set[int] = set()
+    todo = [(node, "")]
+    while todo:
+        n, path = todo.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if isinstance(n, yaml.MappingNode):
+            for k, v in n.value:
+                p = f"{path}.{k.value}" if path else str(k.value)
+                out.setdefault(p, k.start_mark.line + 1)
+                todo.append((v, p))
+        elif isinstance(n, yaml.SequenceNode):
+            for i, v in enumerate(n.value):
+                p = f"{path}[{i}]"
+                out[p] = v.start_mark.line + 1
+                todo.append((v, p))
+    return out
+
+
+def load_yaml(
+    text: str,
+    source: str,
+    error: type[KgkitError] = InputError,
+    max_depth: int = MAX_YAML_DEPTH,
+    max_nodes: int = MAX_YAML_NODES,
+    max_bytes: int = MAX_TEXT_BYTES,
+) -> YamlDocument:
+    """Parse one YAML document with limits; problems become ``error("SOURCE:LINE: cause")``.
+
+    Refused: text over ``max_bytes``, nesting deeper than ``max_depth``, more than
+    ``max_nodes`` values with aliases expanded (an alias bomb, at once), a key given twice
+    in one mapping, integers over :data:`MAX_INT_DIGITS` digits, ``.nan`` and ``.inf``,
+    and several documents in one file.
+    """
+    if len(text) > max_bytes:
+        raise _yaml_fail(source, None, f"more than {max_bytes} characters of YAML", error)
+    try:
+        loader = _LimitedLoader(text)
+        try:
+            _check_events(loader, source, error, max_depth, max_nodes)
+        finally:
+            loader.dispose()
+        loader = _LimitedLoader(text)
+        try:
+            node = loader.get_single_node()
+            data = loader.construct_document(node) if node is not None else None
+        finally:
+            loader.dispose()
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        problem = getattr(exc, "problem", None) or "malformed YAML"
+        if getattr(exc, "context", None) and "expected a single document" in exc.context:
+            problem = "holds more than one YAML document"
+        raise _yaml_fail(source, mark.line + 1 if mark else None, problem, error) from None
+    except RecursionError:  # pragma: no cover - the depth check comes first
+        raise _yaml_fail(source, None, "nested too deeply", error) from None
+    return YamlDocument(data, source, _key_lines(node) if node is not None else {})
+
+
+def read_yaml(
+    path: Path | str,
+    what: str = "a YAML file",
+    error: type[KgkitError] = InputError,
+    **limits,
+) -> YamlDocument:
+    """:func:`read_text_file` then :func:`load_yaml`, with the file as the source."""
+    return load_yaml(read_text_file(path, what, error), str(path), error, **limits)
+
+
+# --- JSON ----------------------------------------------------------------------------
+
+
+def _json_int(s: str) -> int:
+    if len(s.lstrip("-")) > MAX_INT_DIGITS:
+        raise ValueError(f"an integer of {len(s.lstrip('-'))} digits is too long")
+    return int(s)
+
+
+def _json_constant(name: str):
+    raise ValueError(f"{name} is not a JSON number")
+
+
+def _json_depth(text: str, max_depth: int) -> int | None:
+    """The offset where nesting first passes ``max_depth`` (strings skipped), or None."""
+    if text.count("[") + text.count("{") <= max_depth:
+        return None
+    depth = 0
+    for m in re.finditer(r'"(?:[^"\\]|\\.)*"|[\[\]{}]', text):
+        c = m.group()
+        if c in "[{":
+            depth += 1
+            if depth > max_depth:
+                return m.start()
+        elif c in "]}":
+            depth -= 1
+    return None
+
+
+def load_json(
+    text: str,
+    source: str,
+    error: type[KgkitError] = InputError,
+    max_depth: int = MAX_JSON_DEPTH,
+) -> object:
+    """Parse a JSON document with nesting and integers bounded and no NaN or Infinity."""
+    where = _json_depth(text, max_depth)
+    if where is not None:
+        line = text.count("\n", 0, where) + 1
+        raise error(f"{one_line(source)}:{line}: nested more than {max_depth} levels deep")
+    try:
+        return json.loads(text, parse_int=_json_int, parse_constant=_json_constant)
+    except json.JSONDecodeError as exc:
+        raise error(f"{one_line(source)}:{exc.lineno}:{exc.colno}: {exc.msg}") from None
+    except (ValueError, RecursionError) as exc:
+        raise error(f"{one_line(source)}: {one_line(str(exc))}") from None
+
+
+def read_json(
+    path: Path | str,
+    what: str = "a JSON file",
+    error: type[KgkitError] = InputError,
+    max_depth: int = MAX_JSON_DEPTH,
+) -> object:
+    """:func:`read_text_file` then :func:`load_json`, with the file as the source."""
+    return load_json(read_text_file(path, what, error), str(path), error, max_depth)
