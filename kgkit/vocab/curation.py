@@ -16,13 +16,13 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import yaml
 
 from kgkit.errors import SpecError
-from kgkit.vocab.aliases import match_key
+from kgkit.vocab.aliases import Settlement, match_key
 from kgkit.vocab.model import Topic
 from kgkit.vocab.spec import _key_lines
 
@@ -38,6 +38,7 @@ ACTIONS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "remove_parent": (("topic", "parent"), ()),
     "merge": (("topic", "into"), ()),
     "add_topic": (("id", "labels"), ("aliases", "parents")),
+    "settle": (("name", "keep"), ("language",)),
 }
 _ID = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9._-]*$")
 _LANG = re.compile(r"^([A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*)?$")
@@ -53,11 +54,13 @@ class Edit:
 
     @property
     def target(self) -> str:
+        if self.action == "settle":
+            return str(self.args["name"])
         return str(self.args.get("topic", self.args.get("id")))
 
     def describe(self) -> dict:
         out = {"action": self.action, "edit": self.index, "target": self.target}
-        out.update({k: v for k, v in self.args.items() if k not in ("topic", "id")})
+        out.update({k: v for k, v in self.args.items() if k not in ("topic", "id", "name")})
         if self.note is not None:
             out["note"] = self.note
         return out
@@ -139,6 +142,18 @@ def _check_fields(action: str, args: dict, key: str, fail) -> None:
         raise fail(f"{key}.language", "must be a BCP 47 language tag or '' for none")
     if "subtree" in args and not isinstance(args["subtree"], bool):
         raise fail(f"{key}.subtree", "must be true or false")
+    if action == "settle":
+        if not isinstance(args["name"], str) or not args["name"].strip():
+            raise fail(f"{key}.name", "must be non-empty text")
+        keep = args["keep"]
+        if isinstance(keep, str):
+            keep = args["keep"] = [keep]
+        if (
+            not isinstance(keep, list)
+            or not keep
+            or not all(isinstance(k, str) and k.strip() for k in keep)
+        ):
+            raise fail(f"{key}.keep", "must be a topic id or a list of topic ids")
     if action == "add_topic":
         if not isinstance(args["id"], str) or not _ID.match(args["id"]):
             raise fail(f"{key}.id", "must be a topic id of letters, digits, '.', '_' or '-'")
@@ -172,6 +187,7 @@ class CurationResult:
     stale: list[dict]
     excluded: list[tuple[str, bool, int]]  # (topic, subtree, edit index)
     merged: dict[str, str]  # merged topic -> the topic it went into
+    settlements: list[Settlement] = field(default_factory=list)  # applied when names are known
 
 
 def apply_curation(
@@ -188,6 +204,7 @@ def apply_curation(
     or None. ``preferred`` gives a topic's current preferred labels.
     """
     applied, stale, excluded, merged = [], [], [], {}
+    settlements: list[Settlement] = []
 
     def is_topic(ref: str) -> str | None:
         node = resolve(ref)
@@ -214,6 +231,23 @@ def apply_curation(
                 continue
             topics[t.id] = t
             graph_parents[t.id] = sorted({is_topic(p) for p in a.get("parents", [])})
+            applied.append(e.describe())
+            continue
+
+        if e.action == "settle":
+            keep = [(ref, is_topic(ref)) for ref in a["keep"]]
+            gone = [ref for ref, tid in keep if tid is None]
+            if gone:
+                mark_stale(f"topic {gone[0]!r} is not in the vocabulary")
+                continue
+            settlements.append(
+                Settlement(
+                    e.describe(),
+                    match_key(a["name"]),
+                    frozenset(tid for _, tid in keep),
+                    str(a["language"]).lower() if "language" in a else None,
+                )
+            )
             applied.append(e.describe())
             continue
 
@@ -284,4 +318,4 @@ def apply_curation(
             graph_parents[tid] = []
             merged[tid] = into
         applied.append(e.describe())
-    return CurationResult(applied, stale, excluded, merged)
+    return CurationResult(applied, stale, excluded, merged, settlements)

@@ -7,19 +7,21 @@ opt-in: a spec without rules prunes nothing.
 
 from __future__ import annotations
 
+import math
+import os
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import yaml
-
-from kgkit.errors import KgkitError, SpecError
+from kgkit.errors import KgkitError, SpecError, one_line
+from kgkit.inputs import load_yaml, read_yaml
 from kgkit.workspace import Workspace
 
 __all__ = [
     "AMBIGUITY_POLICIES",
     "OUTPUTS",
     "AliasRules",
+    "CommonWordRule",
     "LanguageRules",
     "PopularityRule",
     "PruneRules",
@@ -51,8 +53,11 @@ TOP_KEYS = (
     "prune",
     "curation",
     "outputs",
+    "release",
 )
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,127}$")
+#: Largest integer or number a rule takes (bounds prune and alias thresholds).
+MAX_RULE_INT = 10**12
 _LANG = re.compile(r"^[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*$")
 
 
@@ -84,6 +89,16 @@ class LanguageRules:
 
 
 @dataclass(frozen=True)
+class CommonWordRule:
+    """``aliases.common_words``: names used this often in general text are listed
+    (wordfreq's Zipf scale: 3 is once per million words); ``drop_aliases`` removes
+    such aliases (never a preferred label)."""
+
+    min_zipf: float
+    drop_aliases: bool = False
+
+
+@dataclass(frozen=True)
 class AliasRules:
     """``aliases:``. Empty aliases and duplicates are always removed; the rest is opt-in."""
 
@@ -92,6 +107,8 @@ class AliasRules:
     drop_numeric: bool = False
     stop: tuple[str, ...] = ()
     hidden: bool = True
+    inflected_forms: tuple[str, ...] = ()  # languages whose names get their plural forms
+    common_words: CommonWordRule | None = None
 
 
 @dataclass(frozen=True)
@@ -129,6 +146,9 @@ class VocabSpec:
     prune: PruneRules = field(default_factory=PruneRules)
     curation: Path | None = None
     outputs: tuple[str, ...] = tuple(OUTPUTS)
+    #: ``release.max_topic_loss``: the share of the previous release's active topics a
+    #: release may lose without a replacement (kgkit.release.gates, gate topic-loss)
+    max_topic_loss: float = 0.1
 
     @property
     def build_dir(self) -> Path:
@@ -138,26 +158,10 @@ class VocabSpec:
 
 def _key_lines(text: str) -> dict[str, int]:
     """Dotted key path -> 1-based line, from the YAML node tree (for error messages)."""
-    out: dict[str, int] = {}
     try:
-        root = yaml.compose(text)
-    except yaml.YAMLError:
-        return out
-
-    def walk(node, path):
-        if isinstance(node, yaml.MappingNode):
-            for k, v in node.value:
-                p = f"{path}.{k.value}" if path else str(k.value)
-                out[p] = k.start_mark.line + 1
-                walk(v, p)
-        elif isinstance(node, yaml.SequenceNode):
-            for i, v in enumerate(node.value):
-                p = f"{path}[{i}]"
-                out[p] = v.start_mark.line + 1
-                walk(v, p)
-
-    walk(root, "")
-    return out
+        return load_yaml(text, "spec").lines
+    except KgkitError:
+        return {}
 
 
 class _Checker:
@@ -187,10 +191,24 @@ class _Checker:
                 )
         return value
 
-    def int_(self, value, key: str, minimum: int = 0) -> int:
+    def int_(self, value, key: str, minimum: int = 0, maximum: int = MAX_RULE_INT) -> int:
         if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
             raise self.fail(key, f"must be an integer >= {minimum}, got {value!r}")
+        if value > maximum:
+            raise self.fail(key, f"must be an integer <= {maximum}, got {value}")
         return value
+
+    def number(self, value, key: str, minimum: float = 0) -> float:
+        if (
+            isinstance(value, bool)
+            or not isinstance(value, int | float)
+            or (isinstance(value, float) and not math.isfinite(value))
+            or not minimum <= value <= MAX_RULE_INT
+        ):
+            raise self.fail(
+                key, f"must be a number from {minimum} to {MAX_RULE_INT}, got {value!r}"
+            )
+        return float(value)
 
     def bool_(self, value, key: str) -> bool:
         if not isinstance(value, bool):
@@ -233,6 +251,8 @@ class _Checker:
         for k, v in value.items():
             if isinstance(v, bool) or not isinstance(v, str | int | float):
                 raise self.fail(f"{key}.{k}", f"must be a single value, got {v!r}")
+            if isinstance(v, float) and not math.isfinite(v):
+                raise self.fail(f"{key}.{k}", f"must be a finite number, got {v!r}")
             out[str(k)] = str(v)
         return out
 
@@ -277,10 +297,16 @@ def _check_template(
     return name
 
 
-def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> VocabSpec:
-    """Validate parsed YAML ``data`` read from ``path``; raise SpecError on the first fault."""
+def parse_spec(
+    data: object, path: Path, ws: Workspace, text: str = "", lines: dict[str, int] | None = None
+) -> VocabSpec:
+    """Validate parsed YAML ``data`` read from ``path``; raise SpecError on the first fault.
+
+    ``lines`` (key path -> line, from :func:`kgkit.inputs.load_yaml`) or the ``text``
+    the data came from let messages name the line of a bad key.
+    """
     path = Path(path)
-    c = _Checker(path, _key_lines(text))
+    c = _Checker(path, lines if lines is not None else _key_lines(text))
     if not isinstance(data, dict):
         raise SpecError(f"{path}: expected a mapping of spec keys at the top level")
     d = c.mapping(data, "", TOP_KEYS)
@@ -346,14 +372,47 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
     )
 
     al = c.mapping(
-        d.get("aliases"), "aliases", ("ambiguous", "min_length", "drop_numeric", "stop", "hidden")
+        d.get("aliases"),
+        "aliases",
+        (
+            "ambiguous",
+            "min_length",
+            "drop_numeric",
+            "stop",
+            "hidden",
+            "inflected_forms",
+            "common_words",
+        ),
     )
+    from kgkit.vocab.forms import FORM_LANGUAGES
+
+    forms = c.langs(al.get("inflected_forms", []), "aliases.inflected_forms")
+    for i, lang in enumerate(forms):
+        if lang.split("-", 1)[0] not in FORM_LANGUAGES:
+            raise c.fail(
+                f"aliases.inflected_forms[{i}]",
+                f"no inflected forms for {lang!r} (languages served: {', '.join(FORM_LANGUAGES)})",
+            )
+    common = None
+    if al.get("common_words") is not None:
+        ck = "aliases.common_words"
+        cw = c.mapping(al["common_words"], ck, ("min_zipf", "drop_aliases"))
+        if "min_zipf" not in cw:
+            raise c.fail(ck, "needs 'min_zipf' (a Zipf frequency, e.g. 4.5)")
+        mz = cw["min_zipf"]
+        if isinstance(mz, bool) or not isinstance(mz, int | float) or not 0 <= mz <= 10:
+            raise c.fail(f"{ck}.min_zipf", f"must be a number from 0 to 10, got {mz!r}")
+        common = CommonWordRule(
+            float(mz), c.bool_(cw.get("drop_aliases", False), f"{ck}.drop_aliases")
+        )
     aliases = AliasRules(
         ambiguous=c.choice(al.get("ambiguous", "keep"), "aliases.ambiguous", AMBIGUITY_POLICIES),
         min_length=c.int_(al.get("min_length", 0), "aliases.min_length"),
         drop_numeric=c.bool_(al.get("drop_numeric", False), "aliases.drop_numeric"),
         stop=tuple(c.strings(al.get("stop", []), "aliases.stop")),
         hidden=c.bool_(al.get("hidden", True), "aliases.hidden"),
+        inflected_forms=tuple(dict.fromkeys(forms)),
+        common_words=common,
     )
 
     pr = c.mapping(
@@ -367,9 +426,7 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
         p = c.mapping(pr["min_popularity"], pk, ("template", "params", "min", "variable"))
         if "template" not in p or "min" not in p:
             raise c.fail(pk, "needs 'template' and 'min'")
-        m = p["min"]
-        if isinstance(m, bool) or not isinstance(m, int | float) or m < 0:
-            raise c.fail(f"{pk}.min", f"must be a number >= 0, got {m!r}")
+        m = c.number(p["min"], f"{pk}.min")
         variable = p.get("variable")
         if variable is not None and not isinstance(variable, str):
             raise c.fail(f"{pk}.variable", "must be a result variable name")
@@ -399,10 +456,16 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
     cur = d.get("curation")
     if cur is None:
         curation = path.parent / f"{name}.curation.yaml"
+        if os.path.lexists(curation) and not curation.is_file():
+            raise SpecError(f"{one_line(str(curation))}: not a regular file, not a curation file")
     else:
         if not isinstance(cur, str) or not cur.strip():
             raise c.fail("curation", "must be a file path (relative to the spec)")
         curation = path.parent / cur
+        if not os.path.lexists(curation):
+            raise c.fail("curation", f"no such curation file: {curation}")
+        if not curation.is_file():
+            raise c.fail("curation", f"{curation} is not a regular file")
     outputs = d.get("outputs", list(OUTPUTS))
     out_list = c.strings(outputs, "outputs")
     for i, o in enumerate(out_list):
@@ -422,7 +485,19 @@ def parse_spec(data: object, path: Path, ws: Workspace, text: str = "") -> Vocab
         prune=prune,
         curation=curation,
         outputs=tuple(o for o in OUTPUTS if o in out_list),
+        max_topic_loss=_max_topic_loss(c, d),
     )
+
+
+def _max_topic_loss(c: _Checker, d: dict) -> float:
+    rel = c.mapping(d.get("release"), "release", ("max_topic_loss",))
+    v = rel.get("max_topic_loss", 0.1)
+    if isinstance(v, bool) or not isinstance(v, int | float) or not 0 <= v <= 1:
+        raise c.fail(
+            "release.max_topic_loss",
+            f"must be a share from 0 to 1 (0.1 = ten per cent), got {v!r}",
+        )
+    return float(v)
 
 
 def load_spec(ws: Workspace, spec_path: Path | str) -> VocabSpec:
@@ -430,16 +505,7 @@ def load_spec(ws: Workspace, spec_path: Path | str) -> VocabSpec:
     path = Path(spec_path)
     if not path.is_absolute() and not path.exists() and (ws.root / path).exists():
         path = ws.root / path
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise SpecError(f"{spec_path}: no such spec file") from None
-    except UnicodeDecodeError:
-        raise SpecError(f"{spec_path}: not UTF-8 text") from None
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f"{path}:{mark.line + 1}" if mark else str(path)
-        raise SpecError(f"{where}: {getattr(exc, 'problem', None) or 'malformed YAML'}") from None
-    return parse_spec(data, path.resolve(), ws, text)
+    if not os.path.lexists(path):
+        raise SpecError(f"{one_line(str(spec_path))}: no such spec file")
+    doc = read_yaml(path, "a vocabulary spec", SpecError)
+    return parse_spec(doc.data, path.resolve(), ws, lines=doc.lines)
