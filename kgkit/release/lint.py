@@ -1,16 +1,18 @@
 """Quality checks on a SKOS vocabulary: a release, a build folder or a SKOS file.
 
-Every check comes from the published catalogue of SKOS quality issues: C. Mader,
-B. Haslhofer and A. Isaac, "Finding Quality Issues in SKOS Vocabularies", TPDL 2012
-(LNCS 7489), and the longer issue list its authors published after it.
-Checks carry our own names; ``source`` names the catalogue entry each one is taken
-from. Two of them are also conditions of the W3C SKOS Reference (2009): S13 (the
-preferred, alternative and hidden label sets of a concept are pairwise disjoint)
-and S14 (at most one preferred label per language).
+The kinds of problem looked for follow the study of quality issues in SKOS
+vocabularies by C. Mader, B. Haslhofer and A. Isaac (TPDL 2012, LNCS 7489); the
+checks, their ids and their descriptions are kgkit's own. Three of them enforce
+integrity conditions of the W3C SKOS Reference (2009,
+https://www.w3.org/TR/2009/REC-skos-reference-20090818/), named in
+``Check.skos_condition``: S13 (a concept's preferred, alternative and hidden
+labels are pairwise disjoint), S14 (at most one preferred label per language tag)
+and S27 (skos:related is disjoint with skos:broaderTransitive).
 
 Levels: ``error`` for what breaks the SKOS integrity conditions or an annotator
 reading the vocabulary (cycles, missing, empty or unprintable labels, two
-preferred labels in one language, one text used as two kinds of label);
+preferred labels in one language, one text used as two kinds of label, a concept
+related to its own ancestor);
 ``warning`` for what a curator should look at (orphans, split hierarchies,
 labels shared between concepts, language gaps, top-concept problems).
 
@@ -30,60 +32,58 @@ import networkx as nx
 import rdflib
 from rdflib.namespace import OWL, RDF, SKOS
 
-from kgkit.errors import KgkitError, ParseError
+from kgkit.errors import LintTargetError, ParseError
 from kgkit.vocab.aliases import match_key  # the lexicon's match key
 
 __all__ = ["CHECKS", "Check", "Finding", "LintReport", "LintTargetError", "lint_graph", "lint_path"]
 
-_SOURCE = 'Mader, Haslhofer and Isaac, "Finding Quality Issues in SKOS Vocabularies", TPDL 2012'
-
-
-class LintTargetError(KgkitError):
-    """The lint target is neither a SKOS file nor a folder holding ``skos.ttl``."""
+_SKOS_REFERENCE = "W3C SKOS Reference (2009), integrity condition"
 
 
 @dataclass(frozen=True)
 class Check:
-    """One check: our name, its level and the catalogue entry it comes from."""
+    """One check: kgkit's id, its level, what it looks for in plain words, and the
+    integrity condition of the W3C SKOS Reference it enforces, if any ("S14")."""
 
     name: str
     level: str
-    catalogue: str
     summary: str
+    skos_condition: str = ""
 
     @property
-    def source(self) -> str:
-        return f"{_SOURCE}: {self.catalogue}"
+    def standard(self) -> str:
+        """The SKOS Reference condition this check enforces, or ``""``."""
+        return f"{_SKOS_REFERENCE} {self.skos_condition}" if self.skos_condition else ""
 
 
-# Order is the order of the report. The catalogue names only appear as sources; they
-# are the paper's, except Missing Labels, Empty Labels, Overlapping Labels and
-# Unprintable Characters in Labels, which (from memory) come from the longer issue
-# list the same authors published after the paper.
+# Order is the order of the report.
 CHECKS: tuple[Check, ...] = (
-    Check("hierarchy-loop", "error", "Cyclic Hierarchical Relations",
-          "a concept is its own ancestor through broader/narrower links"),
-    Check("no-preferred-label", "error", "Missing Labels",
+    Check("hierarchy-loop", "error",
+          "following broader links from a concept leads back to it"),
+    Check("no-preferred-label", "error",
           "a concept has no preferred label in any language"),
-    Check("blank-label", "error", "Empty Labels",
+    Check("blank-label", "error",
           "a label is empty or only white space"),
-    Check("two-preferred-labels", "error", "Inconsistent Preferred Labels (SKOS S14)",
-          "a concept has more than one preferred label in one language"),
-    Check("label-kind-clash", "error", "Disjoint Labels Violation (SKOS S13)",
-          "one text is two kinds of label (preferred, alternative, hidden) of one concept"),
-    Check("control-character-in-label", "error", "Unprintable Characters in Labels",
+    Check("two-preferred-labels", "error",
+          "a concept has more than one preferred label in one language", "S14"),
+    Check("label-kind-clash", "error",
+          "one text is two kinds of label (preferred, alternative, hidden) of one concept",
+          "S13"),
+    Check("related-to-ancestor", "error",
+          "two concepts are related (skos:related) while one is above the other", "S27"),
+    Check("control-character-in-label", "error",
           "a label holds a control, private-use, unassigned or line-separator character"),
-    Check("unlinked-concept", "warning", "Orphan Concepts",
+    Check("unlinked-concept", "warning",
           "a concept has no broader, narrower or related link"),
-    Check("split-hierarchy", "warning", "Disconnected Concept Clusters",
+    Check("split-hierarchy", "warning",
           "the linked concepts fall into more than one separate group"),
-    Check("shared-label", "warning", "Overlapping Labels",
+    Check("shared-label", "warning",
           "two concepts carry the same label text in the same language"),
-    Check("language-gap", "warning", "Incomplete Language Coverage",
+    Check("language-gap", "warning",
           "a concept has no preferred label in a language the vocabulary uses"),
-    Check("scheme-without-top", "warning", "Omitted Top Concepts",
+    Check("scheme-without-top", "warning",
           "a concept scheme names no top concept"),
-    Check("top-concept-with-parent", "warning", "Top Concept Having Broader Concepts",
+    Check("top-concept-with-parent", "warning",
           "a top concept of a scheme has a broader concept"),
 )  # fmt: skip
 _BY_NAME = {c.name: c for c in CHECKS}
@@ -97,7 +97,7 @@ class Finding:
     subjects: tuple[str, ...]
     message: str
     level: str = field(compare=False)
-    source: str = field(compare=False)
+    summary: str = field(compare=False)
 
     def to_json(self) -> dict:
         d = asdict(self)
@@ -132,7 +132,7 @@ class LintReport:
             "counts": {"error": len(self.errors), "warning": len(self.warnings)},
             "findings": [f.to_json() for f in self.findings],
             "checks": [
-                {"name": c.name, "level": c.level, "source": c.source, "summary": c.summary}
+                {"name": c.name, "level": c.level, "summary": c.summary, "standard": c.standard}
                 for c in CHECKS
             ],
         }
@@ -142,15 +142,19 @@ class LintReport:
         for f in self.findings:
             lines.append(f"{f.level}: {f.check}: {f.message}")
         lines.append(
-            f"{self.target}: {self.concepts} concepts, {len(self.errors)} errors, "
-            f"{len(self.warnings)} warnings"
+            f"{self.target}: {_count(self.concepts, 'concept')}, "
+            f"{_count(len(self.errors), 'error')}, {_count(len(self.warnings), 'warning')}"
         )
         return "\n".join(lines) + "\n"
 
 
+def _count(n: int, noun: str) -> str:
+    return f"{n:,} {noun}" + ("" if n == 1 else "s")
+
+
 def _finding(name: str, subjects, message: str) -> Finding:
     c = _BY_NAME[name]
-    return Finding(name, tuple(sorted(str(s) for s in subjects)), message, c.level, c.source)
+    return Finding(name, tuple(sorted(str(s) for s in subjects)), message, c.level, c.summary)
 
 
 def _is_unprintable(ch: str) -> bool:
@@ -216,6 +220,20 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
         if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
             names = ", ".join(sorted(str(n) for n in comp))
             out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
+    # SKOS S27: a related pair where one concept is above the other (either way round,
+    # since skos:related is symmetric)
+    for a, b in sorted({tuple(sorted((x, y), key=str)) for x, y in related}, key=str):
+        if a == b:
+            continue
+        for low, high in ((a, b), (b, a)):
+            if low in tree and high in nx.descendants(tree, low):
+                out.append(
+                    _finding(
+                        "related-to-ancestor",
+                        [low, high],
+                        f"{low} is related to {high}, which is above it in the hierarchy",
+                    )
+                )
 
     # labels
     shared: dict[tuple[str, str], set] = defaultdict(set)
