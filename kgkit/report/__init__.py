@@ -380,7 +380,7 @@ def render_page(review: Review) -> str:
             [
                 [
                     _tagged("lvl", f.get("level", "")),
-                    f'<span title="{_e(f.get("source", ""))}">{_e(f.get("check", ""))}</span>',
+                    f'<span title="{_e(f.get("summary", ""))}">{_e(f.get("check", ""))}</span>',
                     _e(", ".join(s.rsplit("/", 1)[-1] for s in f.get("subjects") or [])),
                     _e(f.get("message", "")),
                 ]
