@@ -23,7 +23,6 @@ aliases behind them can be written out as curation edits that remove them.
 
 from __future__ import annotations
 
-import csv
 import re
 import unicodedata
 from collections.abc import Iterable
@@ -33,8 +32,9 @@ from pathlib import Path
 import ahocorasick_rs
 import yaml
 
-from kgkit.errors import KgkitError
-from kgkit.vocab.writers import read_topics
+from kgkit.errors import KgkitError, ProbeError
+from kgkit.vocab.folder import BuildFileError, read_lexicon, read_topics
+from kgkit.vocab.model import LexiconRow, TopicRecord
 
 __all__ = [
     "DEFAULT_THRESHOLD",
@@ -55,12 +55,6 @@ __all__ = [
 #: Share of documents above which a key is flagged as too common to tag with.
 #: Half the documents is a rule of thumb (common practice, no source).
 DEFAULT_THRESHOLD = 0.5
-
-LEXICON_HEADER = ["alias", "match_key", "topic", "language", "kind", "shared_by"]
-
-
-class ProbeError(KgkitError):
-    """A release folder or a text to probe cannot be read."""
 
 
 @dataclass(frozen=True)
@@ -173,12 +167,12 @@ def _normalise(text: str) -> tuple[str, list[int], list[int]]:
 class Lexicon:
     """The match keys of a release or build, their topics, and an automaton over them."""
 
-    def __init__(self, folder: Path, rows: list[dict], topics: dict[str, dict]):
+    def __init__(self, folder: Path, rows: list[LexiconRow], topics: dict[str, TopicRecord]):
         self.folder = folder
         self.topics = topics
-        self.by_key: dict[str, list[dict]] = {}
+        self.by_key: dict[str, list[LexiconRow]] = {}
         for row in rows:
-            self.by_key.setdefault(row["match_key"], []).append(row)
+            self.by_key.setdefault(row.match_key, []).append(row)
         self.keys = sorted(self.by_key)
         self._candidates: dict[str, tuple[Candidate, ...]] = {}
         self._automaton = (
@@ -188,7 +182,8 @@ class Lexicon:
         )
 
     def label_of(self, topic: str, language: str | None = None) -> str:
-        labels = (self.topics.get(topic) or {}).get("labels") or {}
+        t = self.topics.get(topic)
+        labels = t.labels if t is not None else {}
         if language and labels.get(language):
             return labels[language]
         for lang in ("en", "", *sorted(labels)):
@@ -205,19 +200,18 @@ class Lexicon:
     def _make_candidates(self, key: str) -> tuple[Candidate, ...]:
         rows = self.by_key[key]
         out = []
-        for topic in sorted({r["topic"] for r in rows}):
-            mine = [r for r in rows if r["topic"] == topic]
-            lang = mine[0]["language"]
-            parents = (self.topics.get(topic) or {}).get("parents") or []
+        for topic in sorted({r.topic for r in rows}):
+            mine = [r for r in rows if r.topic == topic]
+            lang = mine[0].language
+            t = self.topics.get(topic)
+            parents = t.parents if t is not None else ()
             out.append(
                 Candidate(
                     topic=topic,
                     label=self.label_of(topic, lang),
                     parents=tuple((p, self.label_of(p, lang)) for p in parents),
                     aliases=tuple(
-                        sorted(
-                            {f"{r['alias']} ({r['language'] or '-'}, {r['kind']})" for r in mine}
-                        )
+                        sorted({f"{r.alias} ({r.language or '-'}, {r.kind})" for r in mine})
                     ),
                 )
             )
@@ -255,24 +249,12 @@ def load_lexicon(folder: Path | str) -> Lexicon:
     path = folder / "lexicon.tsv"
     if not path.is_file():
         raise ProbeError(f"{folder}: no lexicon.tsv here; give a release or build folder")
-    rows = []
-    with open(path, encoding="utf-8", newline="") as fh:
-        reader = csv.reader(fh, delimiter="\t", quoting=csv.QUOTE_NONE)
-        header = next(reader, None)
-        if header != LEXICON_HEADER:
-            raise ProbeError(
-                f"{path}:1: expected the tab-separated header {', '.join(LEXICON_HEADER)}"
-            )
-        for n, cells in enumerate(reader, 2):
-            if not cells:
-                continue
-            if len(cells) != len(LEXICON_HEADER):
-                raise ProbeError(f"{path}:{n}: expected {len(LEXICON_HEADER)} columns")
-            row = dict(zip(LEXICON_HEADER, cells, strict=True))
-            if not row["match_key"]:
-                raise ProbeError(f"{path}:{n}: empty match key")
-            rows.append(row)
-    return Lexicon(folder, rows, read_topics(folder / "topics.jsonl", missing_ok=True))
+    try:
+        rows = read_lexicon(path)
+        topics = read_topics(folder / "topics.jsonl", missing_ok=True)
+    except BuildFileError as exc:
+        raise ProbeError(str(exc)) from None
+    return Lexicon(folder, rows, topics)
 
 
 def probe_text(lexicon: Lexicon | Path | str, text: str) -> list[Hit]:
@@ -375,9 +357,7 @@ def probe_corpus(
         shares.append(
             AliasShare(
                 key=key,
-                aliases=tuple(
-                    sorted({(r["topic"], r["alias"], r["language"], r["kind"]) for r in rows})
-                ),
+                aliases=tuple(sorted({(r.topic, r.alias, r.language, r.kind) for r in rows})),
                 documents=count,
                 share=share,
                 flagged=share > threshold,

@@ -139,3 +139,13 @@ def rdflib_graph(statements):
     for t in statements:
         g.add((term(t.subject), term(t.predicate), term(t.object)))
     return g
+
+
+def make_topic(topic_id: str, **fields):
+    """A topic record for tests: an active graph topic at depth 0 with an IRI under
+    ``http://example.org/v/``; any field of :class:`kgkit.vocab.model.TopicRecord`
+    can be given (``labels``, ``aliases``, ``parents``, ``status``...)."""
+    from kgkit.vocab.model import TopicRecord
+
+    fields.setdefault("iri", f"http://example.org/v/{topic_id}")
+    return TopicRecord.make(topic_id, **fields)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 
 import pytest
+from conftest import make_topic
 
 from kgkit.release.changelog import changelog_data, changelog_markdown
 from kgkit.release.diffing import DiffError, diff_folders, diff_topics
@@ -15,29 +16,31 @@ from kgkit.release.versioning import (
     list_releases,
     next_version,
 )
+from kgkit.vocab.folder import parse_topics
 from kgkit.vocab.writers import BuildFileError, read_topics
 
 
 def topic(tid, en, parents=(), aliases=None, **kw):
-    t = {
+    """A topic as a ``topics.jsonl`` object (a dict the tests change in place)."""
+    fields = {
         "aliases": aliases or {},
         "curie": f"ex:{tid}",
         "depth": 0 if not parents else 1,
-        "flags": [],
         "graph": "tidewell",
-        "id": tid,
         "iri": f"http://example.org/vocab/sport/{tid}",
         "labels": {"en": en},
-        "notation": None,
-        "origin": "graph",
         "parents": sorted(parents),
-        "replaced_by": None,
-        "same_as": [],
         "source": f"http://example.org/graph/{tid}",
-        "status": "active",
     }
-    t.update(kw)
-    return t
+    fields.update(kw)
+    return json.loads(json.dumps(make_topic(tid, **fields).to_json()))
+
+
+def diff(old, new, *args, **kw):
+    """``diff_topics`` on two maps of ``topics.jsonl`` objects."""
+    return diff_topics(
+        *(parse_topics(map(json.dumps, m.values())) for m in (old, new)), *args, **kw
+    )
 
 
 def base():
@@ -57,7 +60,7 @@ def kinds(d):
 
 
 def test_nothing_changed_lists_nothing():
-    d = diff_topics(base(), base())
+    d = diff(base(), base())
     assert d.changes == [] and d.is_empty()
     with pytest.raises(NothingChangedError, match="no topic changed since release 1.0.0"):
         next_version(Version(1, 0, 0), d.kinds())
@@ -69,7 +72,7 @@ def test_label_and_alias_changes_are_patch():
     new = base()
     new["sailing"]["labels"] = {"en": "sailing", "de": "Segeln"}
     new["canoe-polo"]["aliases"] = {"en": ["canoe ball"]}
-    d = diff_topics(base(), new)
+    d = diff(base(), new)
     assert [(c.kind, c.topic, c.language, c.before, c.after) for c in d.changes] == [
         ("relabelled", "sailing", "de", None, "Segeln"),
         ("alias-added", "canoe-polo", "en", None, "canoe ball"),
@@ -82,7 +85,7 @@ def test_added_or_moved_is_minor():
     new = base()
     new["rowing"] = topic("rowing", "rowing", ["sport"])
     new["sailing"]["parents"] = ["paddle-sports"]
-    d = diff_topics(base(), new)
+    d = diff(base(), new)
     assert kinds(d) == [("added", "rowing"), ("moved", "sailing")]
     moved = d.changes[1]
     assert moved.before == ["sport"] and moved.after == ["paddle-sports"]
@@ -96,7 +99,7 @@ def test_removed_deprecated_or_renamed_is_major():
     new["canoe-polo"].update(status="deprecated", replaced_by="paddle-sports")
     # same source, new id (a clash suffix appeared): an id change, not remove + add
     new["sport-1a2b3c4d"] = dict(new.pop("sport"), id="sport-1a2b3c4d")
-    d = diff_topics(base(), new)
+    d = diff(base(), new)
     assert kinds(d) == [
         ("removed", "sailing"),
         ("deprecated", "canoe-polo"),
@@ -108,7 +111,7 @@ def test_removed_deprecated_or_renamed_is_major():
     # as a release records it: the old id kept as a deprecated pointer to the new one
     new["sport"] = dict(base()["sport"], status="deprecated", replaced_by="sport-1a2b3c4d")
     new["sport-1a2b3c4d"]["labels"] = {"en": "sports"}
-    assert kinds(diff_topics(base(), new)) == [
+    assert kinds(diff(base(), new)) == [
         ("removed", "sailing"),
         ("deprecated", "canoe-polo"),
         ("id-changed", "sport-1a2b3c4d"),
@@ -121,12 +124,12 @@ def test_deprecated_topic_changes_only_its_replacement():
     old["canoe-polo"].update(status="deprecated", replaced_by="paddle-sports")
     new = base()
     new["canoe-polo"].update(status="deprecated", replaced_by="sport", labels={"en": "x"})
-    d = diff_topics(old, new)
+    d = diff(old, new)
     assert [(c.kind, c.before, c.after) for c in d.changes] == [
         ("replacement-changed", "paddle-sports", "sport")
     ]
     new["canoe-polo"].update(status="active", replaced_by=None, labels={"en": "canoe polo"})
-    assert kinds(diff_topics(old, new)) == [("restored", "canoe-polo")]
+    assert kinds(diff(old, new)) == [("restored", "canoe-polo")]
 
 
 def test_attribution_to_curation():
@@ -142,7 +145,7 @@ def test_attribution_to_curation():
             "stale": [],
         }
     }
-    d = diff_topics(base(), new, None, report)
+    d = diff(base(), new, None, report)
     causes = {(c.kind, c.topic): c.cause for c in d.changes}
     assert causes == {
         ("added", "harbour-races"): "curation",
@@ -150,12 +153,12 @@ def test_attribution_to_curation():
         ("relabelled", "sailing"): "graph",
     }
     # the edit taken out again: its undoing is the curation's too
-    back = diff_topics(new, base(), report, None)
+    back = diff(new, base(), report, None)
     assert {(c.kind, c.topic): c.cause for c in back.changes}[("alias-removed", "canoe-polo")] == (
         "curation"
     )
     # the same edit applied on both sides explains nothing between them
-    d2 = diff_topics(base(), new, report, report)
+    d2 = diff(base(), new, report, report)
     assert {(c.kind, c.topic): c.cause for c in d2.changes}[("alias-added", "canoe-polo")] == (
         "graph"
     )
@@ -207,8 +210,10 @@ def test_diff_folders_and_errors(tmp_path):
         read_topics(tmp_path / "bad" / "topics.jsonl")
     with pytest.raises(DiffError, match="no topics.jsonl in it"):
         diff_folders(tmp_path, b)
-    (tmp_path / "1.10.0").mkdir()
-    (tmp_path / "1.2.0").mkdir()
+    for v in ("1.0.0", "1.10.0", "1.2.0"):
+        (tmp_path / v).mkdir(exist_ok=True)
+        (tmp_path / v / "manifest.json").write_text("{}\n")
+    (tmp_path / "1.3.0").mkdir()  # no manifest: not a release
     assert [str(v) for v in list_releases(tmp_path)] == ["1.0.0", "1.2.0", "1.10.0"]
 
 
@@ -216,7 +221,7 @@ def test_changelog_markdown():
     new = base()
     del new["sailing"]
     new["rowing"] = topic("rowing", "rowing", ["sport"])
-    d = diff_topics(base(), new)
+    d = diff(base(), new)
     version, level = next_version(Version(1, 0, 0), d.kinds())
     stale = [{"action": "add_alias", "edit": 0, "target": "ghost", "alias": "x", "reason": "gone"}]
     data = changelog_data("sport", str(version), "1.0.0", d, level, False, stale)
@@ -255,7 +260,7 @@ def test_attribution_of_merges_and_excluded_subtrees():
             {"id": "dinghy", "reason": "in-excluded-subtree:sailing", "source": None},
         ],
     }
-    d = diff_topics(old, new, None, report)
+    d = diff(old, new, None, report)
     assert [(c.kind, c.topic, c.cause) for c in d.changes] == [
         ("removed", "dinghy", "curation"),
         ("removed", "sailing", "curation"),
@@ -263,7 +268,7 @@ def test_attribution_of_merges_and_excluded_subtrees():
         ("moved", "canoe-polo", "curation"),
     ]
     # without the report, the same changes come from the graph
-    assert {c.cause for c in diff_topics(old, new).changes} == {"graph"}
+    assert {c.cause for c in diff(old, new).changes} == {"graph"}
 
 
 def test_doctests():

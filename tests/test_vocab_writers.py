@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import json
+
 import rdflib
 import yaml
+from conftest import make_topic
 
 from kgkit.vocab.writers import skos_text, write_build, yaml_text
 
@@ -11,31 +14,20 @@ AWKWARD = 'quote " backslash \\ tab\t nl\n nel\u0085 ls\u2028 del\x7f ctrl\x01 e
 
 
 def _record(**kw):
-    r = {
+    fields = {
         "aliases": {"en": [AWKWARD]},
-        "curie": None,
-        "depth": 0,
-        "flags": [],
-        "graph": None,
-        "id": "t",
-        "iri": "http://example.org/v/t",
         "labels": {"": "untagged", "en": "x " + AWKWARD},
         "notation": "A\\1",
         "origin": "curation",
-        "parents": [],
-        "replaced_by": None,
-        "same_as": [],
-        "source": None,
-        "status": "active",
     }
-    r.update(kw)
-    return r
+    fields.update(kw)
+    return make_topic("t", **fields)
 
 
 def test_yaml_round_trips_awkward_text():
     rec = _record()
     data = yaml.safe_load(yaml_text({"title": AWKWARD}, [rec]))
-    assert data == {"scheme": {"title": AWKWARD}, "topics": [rec]}
+    assert data == {"scheme": {"title": AWKWARD}, "topics": [json.loads(json.dumps(rec.to_json()))]}
 
 
 def test_turtle_round_trips_awkward_text():

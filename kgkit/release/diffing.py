@@ -1,6 +1,7 @@
 """What changed between two compiled vocabularies (two releases, or a release and a build).
 
-The diff compares topic files (``topics.jsonl``) topic by topic and lists only what
+The diff compares topic records (:class:`kgkit.vocab.model.TopicRecord`, as in
+``topics.jsonl``) topic by topic and lists only what
 changed, each change with the topic ids it concerns and its cause: ``curation``
 when an edit of the curation overlay made it (an edit applied on one side only,
 or a topic the curation added), ``graph`` otherwise.
@@ -29,11 +30,13 @@ Change kinds (the version part each one bumps is in
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from kgkit.errors import KgkitError
-from kgkit.vocab.writers import read_topics
+from kgkit.errors import DiffError
+from kgkit.vocab.folder import BuildFileError, read_report, read_topics
+from kgkit.vocab.model import Report, TopicRecord
 
 __all__ = [
     "Change",
@@ -56,10 +59,6 @@ _KIND_ORDER = (
     "notation-changed",
     "replacement-changed",
 )
-
-
-class DiffError(KgkitError):
-    """A diff side is not a vocabulary folder or its topic file is malformed."""
 
 
 @dataclass(frozen=True)
@@ -204,27 +203,27 @@ _UNDONE_BY = {
 }
 
 
-def _refs(*sides: dict[str, dict]) -> dict[str, str]:
+def _refs(*sides: Mapping[str, TopicRecord]) -> dict[str, str]:
     """Every way a curation file can name a topic (id, CURIE, <IRI>, IRI) -> its id."""
     out: dict[str, str] = {}
     for topics in sides:
         for tid, t in topics.items():
-            for ref in (t.get("iri"), t.get("source"), t.get("curie")):
+            for ref in (t.iri, t.source, t.curie):
                 if ref:
                     out.setdefault(ref, tid)
-            if t.get("source"):
-                out.setdefault(f"<{t['source']}>", tid)
+            if t.source:
+                out.setdefault(f"<{t.source}>", tid)
     for topics in sides:
         for tid in topics:
             out[tid] = tid
     return out
 
 
-def _edit_effects(report: dict | None, refs: dict[str, str]) -> set[tuple[str, str]]:
+def _edit_effects(report: Report | None, refs: dict[str, str]) -> set[tuple[str, str]]:
     """(topic id, change kind) pairs that the applied curation edits of a build can make."""
     out: set[tuple[str, str]] = set()
-    report = report or {}
-    applied = (report.get("curation") or {}).get("applied") or []
+    report = report or Report()
+    applied = (report.curation or {}).get("applied") or []
     for edit in applied:
         if not isinstance(edit, dict):
             continue
@@ -235,10 +234,10 @@ def _edit_effects(report: dict | None, refs: dict[str, str]) -> set[tuple[str, s
                 out.update((tid, k) for k in kinds)
     # topics the curation excluded with a subtree: the compile names them as dropped
     by_curation = set()
-    for d in report.get("dropped_topics") or []:
+    for d in report.dropped_topics or []:
         if str(d.get("reason", "")).startswith("excluded-by-curation"):
             by_curation.add(d.get("id"))
-    for d in report.get("dropped_topics") or []:
+    for d in report.dropped_topics or []:
         reason = str(d.get("reason", ""))
         if reason.startswith("in-excluded-subtree:") and reason.split(":", 1)[1] in by_curation:
             by_curation.add(d.get("id"))
@@ -258,11 +257,11 @@ def _cause(effects: set[tuple[str, str]], kind: str, topics, origin_curation: bo
 
 def _labels_diff(tid, old, new, cause):
     out = []
-    a, b = old.get("labels") or {}, new.get("labels") or {}
+    a, b = old.labels, new.labels
     for lang in sorted(set(a) | set(b)):
         if a.get(lang) != b.get(lang):
             out.append(("relabelled", lang, a.get(lang), b.get(lang)))
-    aa, ba = old.get("aliases") or {}, new.get("aliases") or {}
+    aa, ba = old.aliases, new.aliases
     for lang in sorted(set(aa) | set(ba)):
         before, after = set(aa.get(lang) or []), set(ba.get(lang) or [])
         for alias in sorted(after - before):
@@ -275,26 +274,30 @@ def _labels_diff(tid, old, new, cause):
     ]
 
 
-def _label(t: dict) -> str | None:
-    labels = t.get("labels") or {}
+def _label(t: TopicRecord) -> str | None:
+    labels = t.labels
     return labels.get("en") or labels.get("") or (labels[min(labels)] if labels else None)
 
 
 def diff_topics(
-    old: dict[str, dict],
-    new: dict[str, dict],
-    old_report: dict | None = None,
-    new_report: dict | None = None,
+    old: Mapping[str, TopicRecord],
+    new: Mapping[str, TopicRecord],
+    old_report: Report | dict | None = None,
+    new_report: Report | dict | None = None,
     old_name: str = "old",
     new_name: str = "new",
 ) -> VocabDiff:
-    """Compare two topic maps (id -> topic object as in ``topics.jsonl``).
+    """Compare two topic maps (id -> :class:`~kgkit.vocab.model.TopicRecord`).
 
-    >>> a = {"x": {"id": "x", "labels": {"en": "X"}, "parents": [], "status": "active"}}
-    >>> b = {"x": {"id": "x", "labels": {"en": "Ex"}, "parents": [], "status": "active"}}
+    >>> a = {"x": TopicRecord.make("x", labels={"en": "X"})}
+    >>> b = {"x": TopicRecord.make("x", labels={"en": "Ex"})}
     >>> [c.kind for c in diff_topics(a, b).changes]
     ['relabelled']
     """
+    if isinstance(old_report, dict):
+        old_report = Report.from_json(old_report)
+    if isinstance(new_report, dict):
+        new_report = Report.from_json(new_report)
     refs = _refs(old, new)
     before, after = _edit_effects(old_report, refs), _edit_effects(new_report, refs)
     # an edit applied on both sides changes nothing between them; one applied on the
@@ -306,36 +309,35 @@ def diff_topics(
 
     def cause_for(topic_obj):
         def cause(kind, ids):
-            return _cause(effects, kind, ids, topic_obj.get("origin") == "curation")
+            return _cause(effects, kind, ids, topic_obj.origin == "curation")
 
         return cause
 
     changes: list[Change] = []
-    active = lambda t: t.get("status", "active") != "deprecated"  # noqa: E731
 
     # the same source under another id: an id change, not a removal and an addition
     gone = [i for i in old if i not in new]
     fresh = [i for i in new if i not in old]
     by_source_new = {}
     for i in fresh:
-        s = new[i].get("source")
+        s = new[i].source
         if s:
             by_source_new.setdefault(s, []).append(i)
     renamed: dict[str, str] = {}
     for i in sorted(gone):
-        s = old[i].get("source")
+        s = old[i].source
         if s and len(by_source_new.get(s, [])) == 1:
             renamed[i] = by_source_new[s][0]
     # ... also when a release keeps the old id as a deprecated pointer to the new one
     for i in sorted(set(old) & set(new)):
-        rep = new[i].get("replaced_by")
-        s = old[i].get("source")
+        rep = new[i].replaced_by
+        s = old[i].source
         if (
-            active(old[i])
-            and not active(new[i])
+            old[i].is_active
+            and not new[i].is_active
             and rep in fresh
             and s
-            and new[rep].get("source") == s
+            and new[rep].source == s
         ):
             renamed[i] = rep
     for o, n in sorted(renamed.items()):
@@ -354,7 +356,7 @@ def diff_topics(
         if i in renamed_to:
             continue
         t = new[i]
-        if not active(t):
+        if not t.is_active:
             continue  # born and deprecated between the two: never seen from the old side
         cause = cause_for(t)
         changes.append(Change("added", i, (i,), cause("added", [i]), None, None, _label(t)))
@@ -364,16 +366,16 @@ def diff_topics(
     for oi, ni in pairs:
         a, b = old[oi], new[ni]
         cause = cause_for(b)
-        if active(a) and not active(b):
-            rep = b.get("replaced_by")
+        if a.is_active and not b.is_active:
+            rep = b.replaced_by
             ids = (ni, rep) if rep else (ni,)
             changes.append(Change("deprecated", ni, ids, cause("deprecated", ids), None, None, rep))
             continue
-        if not active(a) and active(b):
+        if not a.is_active and b.is_active:
             changes.append(Change("restored", ni, (ni,), cause("restored", [ni])))
-        elif not active(a) and not active(b):
-            if a.get("replaced_by") != b.get("replaced_by"):
-                ids = tuple(x for x in (ni, a.get("replaced_by"), b.get("replaced_by")) if x)
+        elif not a.is_active and not b.is_active:
+            if a.replaced_by != b.replaced_by:
+                ids = tuple(x for x in (ni, a.replaced_by, b.replaced_by) if x)
                 changes.append(
                     Change(
                         "replacement-changed",
@@ -381,12 +383,12 @@ def diff_topics(
                         ids,
                         cause("replacement-changed", ids),
                         None,
-                        a.get("replaced_by"),
-                        b.get("replaced_by"),
+                        a.replaced_by,
+                        b.replaced_by,
                     )
                 )
             continue
-        pa, pb = sorted(a.get("parents") or []), sorted(b.get("parents") or [])
+        pa, pb = sorted(a.parents), sorted(b.parents)
         if pa != pb:
             ids = tuple(sorted({ni, *pa, *pb}))
             why = cause("moved", [ni])
@@ -394,7 +396,7 @@ def diff_topics(
                 why = "curation"
             changes.append(Change("moved", ni, ids, why, None, pa, pb))
         changes.extend(_labels_diff(ni, a, b, cause))
-        if a.get("notation") != b.get("notation"):
+        if a.notation != b.notation:
             changes.append(
                 Change(
                     "notation-changed",
@@ -402,8 +404,8 @@ def diff_topics(
                     (ni,),
                     cause("notation-changed", [ni]),
                     None,
-                    a.get("notation"),
-                    b.get("notation"),
+                    a.notation,
+                    b.notation,
                 )
             )
     changes.sort(key=Change.sort_key)
@@ -418,24 +420,17 @@ def _topic_file(side: Path) -> Path:
     raise DiffError(f"{side}: not a release or build folder (no topics.jsonl in it)")
 
 
-def read_report(folder: Path) -> dict | None:
-    path = folder / "report.json"
-    if not path.is_file():
-        return None
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise DiffError(f"{path}:{exc.lineno}: malformed report ({exc.msg})") from None
-
-
 def diff_folders(a: Path | str, b: Path | str) -> VocabDiff:
     """Diff two release or build folders (or two ``topics.jsonl`` files)."""
     fa, fb = _topic_file(Path(a)), _topic_file(Path(b))
-    return diff_topics(
-        read_topics(fa),
-        read_topics(fb),
-        read_report(fa.parent),
-        read_report(fb.parent),
-        str(a),
-        str(b),
-    )
+    try:
+        return diff_topics(
+            read_topics(fa),
+            read_topics(fb),
+            read_report(fa.parent),
+            read_report(fb.parent),
+            str(a),
+            str(b),
+        )
+    except BuildFileError as exc:
+        raise DiffError(str(exc)) from None

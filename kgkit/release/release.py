@@ -6,33 +6,26 @@ existing release folder is never touched. Its files are byte-for-byte the same
 for the same inputs (store content, spec, curation, templates, previous release),
 except the ``released`` time inside ``manifest.json``, which no hash covers.
 
-Deprecation: a topic of the previous release that the fresh compile no longer
-has stays in the release as ``status: deprecated`` (no parents, no aliases, no
-lexicon rows). Its ``replaced_by`` is found, in this order: the topic the curation
-merged it into (the compile already marks those), an active topic whose source the
-old topic's recorded ``same_as`` links name or whose own ``same_as`` names the old
-source, then the graph itself: entities linked to the old source by the profile's
-``same_as`` predicates, in either direction and over several steps, that are
-sources of active topics. Several candidates: the lowest id. When the same source
-entity simply has a new id (a clash suffix came or went), that topic replaces it. A topic already
-deprecated in the previous release is carried over, its replacement followed to
-an active topic when that one was deprecated in turn.
+The release works on the vocabulary the compile returns, in memory: nothing of
+the build folder is read back. Deprecation of the previous release's topics that
+the compile no longer has is described in :mod:`kgkit.vocab.succession`.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 import json
 import os
 import shutil
 import tempfile
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import kgkit
-from kgkit.errors import KgkitError
+from kgkit.errors import ReleaseError
 from kgkit.release.changelog import changelog_data, changelog_json, changelog_markdown
-from kgkit.release.diffing import VocabDiff, diff_topics, read_report, read_topics
+from kgkit.release.diffing import VocabDiff, diff_topics
 from kgkit.release.manifest import (
     MANIFEST,
     content_hash,
@@ -40,18 +33,26 @@ from kgkit.release.manifest import (
     hash_files,
     manifest_json,
     source_entries,
+    verify_release,
 )
-from kgkit.release.versioning import Version, list_releases, next_version
+from kgkit.release.versioning import (
+    Version,
+    clear_leftovers,
+    next_version,
+    scan_releases,
+    temp_prefix,
+)
+from kgkit.vocab.folder import read_vocabulary, vocabulary_files
+from kgkit.vocab.succession import deprecate_gone, find_replacements, same_as_links
 from kgkit.workspace import Workspace
 
-__all__ = ["ReleaseError", "ReleaseResult", "find_replacements", "make_release"]
-
-#: build files a release carries over (report.txt, the human summary, stays in the build)
-RELEASE_FILES = ("topics.jsonl", "topics.yaml", "skos.ttl", "lexicon.tsv", "report.json")
-
-
-class ReleaseError(KgkitError):
-    """A release cannot be made (existing folder, missing build output, ...)."""
+__all__ = [
+    "ReleaseError",
+    "ReleaseResult",
+    "check_previous",
+    "find_replacements",
+    "make_release",
+]
 
 
 @dataclass
@@ -67,6 +68,7 @@ class ReleaseResult:
     deprecated: list[dict]
     stale: list[dict]
     manifest: dict
+    warnings: list[str] = field(default_factory=list)
 
     def summary(self) -> dict:
         return {
@@ -79,126 +81,8 @@ class ReleaseResult:
             "deprecated": [d["id"] for d in self.deprecated],
             "stale": len(self.stale),
             "content_sha256": self.manifest["content_sha256"],
+            "warnings": self.warnings,
         }
-
-
-def _active(t: dict) -> bool:
-    return t.get("status", "active") != "deprecated"
-
-
-def _graph_links(ws: Workspace, sources: list[str], graphs) -> dict[str, set[str]]:
-    """old source IRI -> IRIs linked to it by the profile's same_as predicates (any direction)."""
-    preds = list(ws.profile["same_as"])
-    if not preds or not sources:
-        return {}
-    from kgkit.query import connect, run_query
-
-    step = "|".join(f"<{p}>|^<{p}>" for p in preds)
-    out: dict[str, set[str]] = {}
-    with connect(ws) as backend:
-        for s in sources:
-            # one source per query, inline: the optimiser uses a constant subject
-            q = f"SELECT DISTINCT ?o WHERE {{ <{s}> ({step})+ ?o . FILTER(isIRI(?o)) }}"
-            res = run_query(backend, q, graphs=list(graphs) if graphs else None)
-            out[s] = {row[0].value for row in res.rows if row[0] is not None} - {s}
-    return out
-
-
-def find_replacements(
-    ws: Workspace | None, gone: dict[str, dict], new: dict[str, dict], graphs=None
-) -> dict[str, tuple[str | None, str | None]]:
-    """Topic id -> (replacement id or None, how it was found) for topics ``gone``
-    from the compile, among the active topics of ``new``."""
-    by_source = {t["source"]: i for i, t in new.items() if t.get("source") and _active(t)}
-    linked_back: dict[str, set[str]] = {}
-    for i, t in new.items():
-        if _active(t):
-            for s in t.get("same_as") or []:
-                linked_back.setdefault(s, set()).add(i)
-    needs_graph = []
-    out: dict[str, tuple[str | None, str | None]] = {}
-    for tid, t in sorted(gone.items()):
-        if t.get("source") in by_source:  # the same entity under a new id
-            out[tid] = (by_source[t["source"]], "same-source")
-            continue
-        cands = {by_source[s] for s in t.get("same_as") or [] if s in by_source}
-        cands |= linked_back.get(t.get("source") or "", set())
-        if cands:
-            out[tid] = (min(cands), "same-as")
-        elif t.get("source"):
-            needs_graph.append(tid)
-        else:
-            out[tid] = (None, None)
-    if needs_graph and ws is not None:
-        links = _graph_links(ws, sorted({gone[t]["source"] for t in needs_graph}), graphs)
-        for tid in needs_graph:
-            cands = {by_source[o] for o in links.get(gone[tid]["source"], ()) if o in by_source}
-            out[tid] = (min(cands), "graph-link") if cands else (None, None)
-    for tid in needs_graph:
-        out.setdefault(tid, (None, None))
-    return out
-
-
-def _follow(rep: str | None, records: dict[str, dict]) -> str | None:
-    """Follow replacements of deprecated topics to an active one; keep ``rep`` if the
-    chain ends nowhere active (a deprecated successor is still the truth)."""
-    start, seen = rep, set()
-    while rep and rep in records and not _active(records[rep]) and rep not in seen:
-        seen.add(rep)
-        rep = records[rep].get("replaced_by")
-    return rep if rep in records and _active(records[rep]) else start
-
-
-def _deprecated_record(t: dict, rep: str | None) -> dict:
-    r = dict(t)
-    # same shape as the compiler's merged topics: no place in the hierarchy, no aliases
-    r.update(status="deprecated", replaced_by=rep, parents=[], depth=None, aliases={})
-    return r
-
-
-def _label_tags(skos_path: Path, records: list[dict]) -> dict[str, dict[str, str]]:
-    """Recover the compile's lent-label language tags (``fallback-label:LANG`` flags)
-    from its SKOS file, so that re-writing it gives the same bytes."""
-    wanted = {
-        r["iri"]: r
-        for r in records
-        if any(f.startswith("fallback-label:") for f in r.get("flags") or [])
-    }
-    if not wanted or not skos_path.is_file():
-        return {}
-    import pyoxigraph as ox
-
-    pref = "http://www.w3.org/2004/02/skos/core#prefLabel"
-    found: dict[str, list[tuple[str, str]]] = {}
-    with open(skos_path, "rb") as fh:
-        for t in ox.parse(fh, format=ox.RdfFormat.TURTLE):
-            if t.predicate.value == pref and t.subject.value in wanted:
-                found.setdefault(t.subject.value, []).append(
-                    (t.object.value, t.object.language or "")
-                )
-    out = {}
-    for iri, r in wanted.items():
-        tags = {}
-        for f in r["flags"]:
-            if f.startswith("fallback-label:"):
-                lang = f.split(":", 1)[1]
-                text = r["labels"].get(lang)
-                tag = next((tg for x, tg in sorted(found.get(iri, [])) if x == text), None)
-                if tag is not None and tag != lang:
-                    tags[lang] = tag
-        if tags:
-            out[r["id"]] = tags
-    return out
-
-
-def _read_lexicon(path: Path) -> list[tuple]:
-    rows = []
-    with open(path, encoding="utf-8", newline="\n") as fh:
-        next(fh, None)
-        for line in fh:
-            alias, key, tid, lang, kind, shared = line.rstrip("\n").split("\t")
-            rows.append((alias, key, tid, lang, kind, int(shared)))
-    return rows
 
 
 def _rel(path: Path | None, root: Path) -> str | None:
@@ -250,6 +134,43 @@ def _inputs(ws: Workspace, spec) -> dict:
     }
 
 
+def check_previous(home: Path, releases: list[Version], name: str) -> None:
+    """Refuse to build on the newest release of ``home`` unless it verifies: its files
+    against its manifest, the manifest's metadata, and its place after the release
+    before it. Raises :class:`ReleaseError` naming the first problem."""
+    previous = releases[-1]
+    folder = home / str(previous)
+    res = verify_release(folder, name=name)
+    if res.ok:
+        before = str(releases[-2]) if len(releases) > 1 else None
+        got = json.loads((folder / MANIFEST).read_text(encoding="utf-8")).get("previous")
+        if got != before:
+            res.problems.append(
+                {
+                    "file": MANIFEST,
+                    "problem": f"'previous' is {json.dumps(got)} but the release before it "
+                    f"is {json.dumps(before)}",
+                }
+            )
+    if not res.ok:
+        n = len(res.problems)
+        more = f" (and {n - 1} more problem{'' if n == 2 else 's'})" if n > 1 else ""
+        raise ReleaseError(
+            f"{res.first_problem()}{more}; the previous release {previous} does not verify, "
+            "so nothing was released on top of it"
+        )
+
+
+def _check_target(target: Path, strays: list[Path]) -> None:
+    if target in strays:
+        raise ReleaseError(
+            f"{target}: a folder holding no manifest.json is in the way of release "
+            f"{target.name}; move it away or give another version"
+        )
+    if target.exists() or target.is_symlink():
+        raise ReleaseError(f"{target}: release exists already; not overwriting it")
+
+
 def _write(folder: Path, name: str, text: str) -> None:
     with open(folder / name, "w", encoding="utf-8", newline="\n") as fh:
         fh.write(text)
@@ -272,80 +193,57 @@ def make_release(
     when the release folder exists, or when the store or an input file changed while
     the release was being made.
     """
-    from kgkit.vocab.compile import Build, compile_vocabulary
+    from kgkit.vocab.compile import compile_vocabulary
     from kgkit.vocab.spec import load_spec
 
     spec = load_spec(ws, spec_path)
     if "jsonl" not in spec.outputs:
         raise ReleaseError(f"{spec.path}: a release needs the 'jsonl' output (key 'outputs')")
     home = spec.path.parent / spec.name
-    releases = list_releases(home)
+    clear_leftovers(home)
+    found = scan_releases(home)
+    releases = found.releases
     previous = releases[-1] if releases else None
+    if previous is not None:
+        check_previous(home, releases, spec.name)
     if version is not None:
         wanted = Version.parse(version)
-        if (home / str(wanted)).exists():
-            raise ReleaseError(f"{home / str(wanted)}: release exists already; not overwriting it")
+        _check_target(home / str(wanted), found.strays)
 
     # the inputs, taken before the compile and checked again after it
     inputs = _inputs(ws, spec)
-    result = compile_vocabulary(ws, spec.path, strict=strict, progress=progress)
-    build = Path(result.output)
-    report = json.loads((build / "report.json").read_text(encoding="utf-8"))
-    new = read_topics(build / "topics.jsonl")
+    result = compile_vocabulary(ws, spec, strict=strict, progress=progress)
+    vocab = result.vocabulary
+    new = vocab.by_id
 
-    old: dict[str, dict] = {}
+    old: dict = {}
     old_report = None
     if previous is not None:
-        pdir = home / str(previous)
-        old = read_topics(pdir / "topics.jsonl")
-        old_report = read_report(pdir)
+        before = read_vocabulary(home / str(previous))
+        old, old_report = before.by_id, before.report
 
     # deprecations: topics of the previous release the compile no longer has
-    gone = {i: t for i, t in old.items() if i not in new}
-    fresh_gone = {i: t for i, t in gone.items() if _active(t)}
-    reps = find_replacements(ws, fresh_gone, new, spec.graphs) if fresh_gone else {}
-    records = dict(new)
-    deprecated = []
-    for tid in sorted(gone):
-        t = gone[tid]
-        if _active(t):
-            rep, via = reps.get(tid, (None, None))
-            records[tid] = _deprecated_record(t, rep)
-            deprecated.append({"id": tid, "replaced_by": rep, "via": via})
-        else:
-            records[tid] = dict(t)
-    for tid, r in records.items():
-        if not _active(r) and r.get("replaced_by"):
-            followed = _follow(r["replaced_by"], records)
-            if followed != r["replaced_by"]:
-                records[tid] = dict(r, replaced_by=followed)
-                for d in deprecated:
-                    if d["id"] == tid:
-                        d["replaced_by"] = followed
-    ordered = [records[i] for i in sorted(records)]
+    def graph_links(sources: list[str]) -> dict[str, set[str]]:
+        from kgkit.query import connect
 
+        with connect(ws) as backend:
+            return same_as_links(backend, ws.profile["same_as"], sources, spec.graphs)
+
+    records, deprecated = deprecate_gone(old.values(), new, graph_links)
+    ordered = list(records.values())
+    report = vocab.report
     if deprecated or len(records) != len(new):
-        report = dict(report)
-        report["counts"] = dict(
-            report["counts"], deprecated=len(ordered) - sum(map(_active, ordered))
-        )
-        report["release_deprecations"] = deprecated
-        files = Build(
-            spec,
-            ordered,
-            _read_lexicon(build / "lexicon.tsv") if "lexicon" in spec.outputs else [],
+        report = dataclasses.replace(
             report,
-            _label_tags(build / "skos.ttl", list(new.values())),
-        ).files()
-        files.pop("report.txt", None)
-        if "lexicon" in spec.outputs:
-            files["lexicon.tsv"] = (build / "lexicon.tsv").read_text(encoding="utf-8")
-    else:
-        files = {
-            n: (build / n).read_text(encoding="utf-8")
-            for n in RELEASE_FILES
-            if (build / n).is_file()
-        }
+            counts=dict(report.counts, deprecated=sum(1 for t in ordered if not t.is_active)),
+            release_deprecations=deprecated,
+        )
+        vocab = dataclasses.replace(vocab, topics=tuple(ordered), report=report)
+    files = {
+        name: make()
+        for name, make in vocabulary_files(vocab, spec.outputs).items()
+        if name != "report.txt"  # the human summary stays in the build
+    }
 
     diff = diff_topics(
         old, records, old_report, report, str(previous) if previous else "none", "release"
@@ -354,9 +252,8 @@ def make_release(
         diff.changes = []  # nothing to compare a first release with
     ver, level = next_version(previous, diff.kinds() if previous else [], version)
     target = home / str(ver)
-    if target.exists():
-        raise ReleaseError(f"{target}: release exists already; not overwriting it")
-    stale = (report.get("curation") or {}).get("stale") or []
+    _check_target(target, found.strays)
+    stale = report.stale_edits
     cl = changelog_data(
         spec.name,
         str(ver),
@@ -378,12 +275,12 @@ def make_release(
             "nothing released, run it again"
         )
     home.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{ver}.tmp-", dir=home))
+    tmp = Path(tempfile.mkdtemp(prefix=temp_prefix(ver), dir=home))
     try:
         for name in sorted(files):
             _write(tmp, name, files[name])
         hashed = hash_files(tmp, files)
-        active_n = sum(map(_active, ordered))
+        active_n = sum(1 for t in ordered if t.is_active)
         manifest = {
             "name": spec.name,
             "version": str(ver),
@@ -395,7 +292,7 @@ def make_release(
             "counts": {
                 "topics": active_n,
                 "deprecated": len(ordered) - active_n,
-                "lexicon_rows": report["counts"].get("lexicon_rows"),
+                "lexicon_rows": report.counts.get("lexicon_rows"),
                 "changes": len(diff.changes),
                 "stale_curation": len(stale),
             },
@@ -413,5 +310,5 @@ def make_release(
         raise
     return ReleaseResult(
         spec.name, str(ver), str(previous) if previous else None, level, target, diff,
-        deprecated, stale, manifest,
+        deprecated, stale, manifest, found.warnings(),
     )  # fmt: skip

@@ -27,8 +27,9 @@ from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
-from kgkit.errors import KgkitError
-from kgkit.vocab.writers import read_topics
+from kgkit.errors import ReviewError
+from kgkit.vocab.folder import read_topics
+from kgkit.vocab.model import TopicRecord
 
 __all__ = ["Review", "ReviewError", "load_review", "render_page", "write_page"]
 
@@ -50,10 +51,6 @@ _TOPIC_KEYS = (
 )
 
 
-class ReviewError(KgkitError):
-    """The target of a review page is not a release or build folder."""
-
-
 @dataclass
 class Review:
     """What a review page shows, read from one release or build folder."""
@@ -61,7 +58,7 @@ class Review:
     title: str
     kind: str  # "release" | "build"
     path: Path
-    topics: list[dict]
+    topics: list[TopicRecord]
     version: str | None = None
     report: dict | None = None
     manifest: dict | None = None
@@ -82,8 +79,13 @@ def _read_json(path: Path) -> dict | None:
         raise ReviewError(f"{path}: not UTF-8 text") from None
 
 
-def _read_topics(path: Path) -> list[dict]:
-    return [{k: t.get(k) for k in _TOPIC_KEYS} for t in read_topics(path).values()]
+def _read_topics(path: Path) -> list[TopicRecord]:
+    return list(read_topics(path).values())
+
+
+def _topic_json(t: TopicRecord) -> dict:
+    """The fields of a topic the page's script reads."""
+    return {k: getattr(t, k) for k in _TOPIC_KEYS}
 
 
 def _describe_changes(changes: list[dict]) -> list[str]:
@@ -124,7 +126,7 @@ def load_review(target: Path | str, lint: bool = True) -> Review:
         title=str(name),
         kind=kind,
         path=folder,
-        topics=sorted(_read_topics(topics_path), key=lambda t: t["id"]),
+        topics=sorted(_read_topics(topics_path), key=lambda t: t.id),
         version=version,
         report=_read_json(folder / "report.json"),
         manifest=manifest,
@@ -246,16 +248,16 @@ def _bar_chart(title: str, bars: list[tuple[str, float, str]], unit: str = "") -
 
 
 def _charts(review: Review) -> str:
-    active = [t for t in review.topics if t.get("status", "active") == "active"]
+    active = [t for t in review.topics if t.is_active]
     depths: dict[int, int] = {}
     for t in active:
-        d = t.get("depth")
+        d = t.depth
         if isinstance(d, int):
             depths[d] = depths.get(d, 0) + 1
     depth_bars = [(f"depth {d}", n, f"{n:,}") for d, n in sorted(depths.items())]
     langs: dict[str, int] = {}
     for t in active:
-        for lang, text in (t.get("labels") or {}).items():
+        for lang, text in t.labels.items():
             if text:
                 langs[lang] = langs.get(lang, 0) + 1
     total = len(active) or 1
@@ -314,10 +316,10 @@ def render_page(review: Review) -> str:
     """The review page as one HTML string (deterministic for the same folder)."""
     report = review.report or {}
     topics = review.topics
-    active = [t for t in topics if t.get("status", "active") == "active"]
-    deprecated = [t for t in topics if t.get("status") == "deprecated"]
-    n_aliases = sum(len(v) for t in active for v in (t.get("aliases") or {}).values())
-    languages = sorted({lang for t in active for lang in (t.get("labels") or {})})
+    active = [t for t in topics if t.is_active]
+    deprecated = [t for t in topics if not t.is_active]
+    n_aliases = sum(len(v) for t in active for v in t.aliases.values())
+    languages = sorted({lang for t in active for lang in t.labels})
 
     ambiguous = report.get("ambiguous") or []
     amb_rows = [
@@ -460,7 +462,7 @@ def render_page(review: Review) -> str:
         facts.append(("lint", f"{lc.get('error', 0)} errors, {lc.get('warning', 0)} warnings"))
     fact_html = "".join(f"<div><dt>{_e(k)}</dt><dd>{_e(v)}</dd></div>" for k, v in facts)
     notes_html = "".join(f'<p class="note">{_e(n)}</p>' for n in review.notes)
-    data = {"topics": topics, "languages": languages}
+    data = {"topics": [_topic_json(t) for t in topics], "languages": languages}
 
     sections = "\n".join(
         [

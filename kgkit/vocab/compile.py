@@ -25,68 +25,58 @@ from kgkit.vocab.aliases import (
     resolve_ambiguity,
 )
 from kgkit.vocab.curation import Edit, apply_curation, load_curation
+from kgkit.vocab.folder import vocabulary_files, write_vocabulary
 from kgkit.vocab.hierarchy import repair_hierarchy, restrict_to, subtree
-from kgkit.vocab.model import Topic, assign_ids
+from kgkit.vocab.model import (
+    ACTIVE,
+    DEPRECATED,
+    LexiconRow,
+    Report,
+    Scheme,
+    Topic,
+    TopicRecord,
+    Vocabulary,
+    assign_ids,
+)
 from kgkit.vocab.prune import prune_topics
 from kgkit.vocab.select import Fetched, fetch_entities, run_popularity, select_topics
-from kgkit.vocab.spec import OUTPUTS, VocabSpec, load_spec
-from kgkit.vocab.writers import (
-    jsonl_text,
-    lexicon_text,
-    report_json_text,
-    report_text,
-    skos_text,
-    write_build,
-    yaml_text,
-)
+from kgkit.vocab.spec import VocabSpec, load_spec
 from kgkit.workspace import Workspace
 
-__all__ = ["Build", "CompileResult", "build_vocabulary", "compile_vocabulary"]
+__all__ = [
+    "CompileResult",
+    "build_vocabulary",
+    "compile_vocabulary",
+    "display_languages",
+    "scheme_of",
+]
 
 
-@dataclass
-class Build:
-    """A compiled vocabulary in memory: topic records, lexicon rows, report."""
+def scheme_of(spec: VocabSpec) -> Scheme:
+    """The concept scheme a spec describes."""
+    return Scheme(spec.scheme, spec.name, spec.namespace, spec.title)
 
-    spec: VocabSpec
-    records: list[dict]
-    lexicon: list[tuple]
-    report: dict
-    label_tags: dict[str, dict[str, str]]
 
-    def renderers(self) -> dict[str, Callable[[], str]]:
-        """File name -> function making its text, for the outputs the spec asks for."""
-        s = self.spec
-        out: dict[str, Callable[[], str]] = {
-            "report.json": lambda: report_json_text(self.report),
-            "report.txt": lambda: report_text(s.name, self.report),
-        }
-        if "jsonl" in s.outputs:
-            out[OUTPUTS["jsonl"]] = lambda: jsonl_text(self.records)
-        if "yaml" in s.outputs:
-            scheme = {"iri": s.scheme, "name": s.name, "namespace": s.namespace, "title": s.title}
-            out[OUTPUTS["yaml"]] = lambda: yaml_text(scheme, self.records)
-        if "skos" in s.outputs:
-            out[OUTPUTS["skos"]] = lambda: skos_text(
-                s.scheme, s.title, self.records, self.label_tags
-            )
-        if "lexicon" in s.outputs:
-            out[OUTPUTS["lexicon"]] = lambda: lexicon_text(self.lexicon)
-        return out
-
-    def files(self) -> dict[str, str]:
-        """File name -> text, for the outputs the spec asks for (the report always)."""
-        return {name: make() for name, make in self.renderers().items()}
+def display_languages(spec: VocabSpec) -> tuple[str, ...]:
+    """The order in which a person should see a topic's labels: the spec's required,
+    then optional, then fallback languages."""
+    rules = spec.languages
+    return tuple(dict.fromkeys((*rules.required, *(rules.optional or ()), *rules.fallback)))
 
 
 @dataclass
 class CompileResult:
-    """What ``compile_vocabulary`` did: where it wrote, the summary, the full report."""
+    """What ``compile_vocabulary`` did: the vocabulary, where it wrote it, the summary."""
 
+    vocabulary: Vocabulary
     output: Path
     summary: dict
-    report: dict
     files: list[str]
+
+    @property
+    def report(self) -> dict:
+        """The compile report as written to ``report.json``."""
+        return self.vocabulary.report.to_json()
 
 
 def _resolver(ws: Workspace, topics: dict[str, Topic], ids: dict[str, str]):
@@ -113,7 +103,7 @@ def build_vocabulary(
     popularity: dict[str, float] | None = None,
     strict: bool = False,
     progress: Callable[[str], None] | None = None,
-) -> Build:
+) -> Vocabulary:
     """Compile in memory from already fetched data (no store needed)."""
 
     def step(text: str) -> None:
@@ -285,32 +275,32 @@ def build_vocabulary(
         if borrowed:
             label_tags[tid] = dict(borrowed)
         records.append(
-            {
-                "aliases": {} if deprecated else names[tid][1],
-                "curie": ws.compact(t.source) if t.source else None,
-                "depth": None if deprecated else h.depth[tid],
-                "flags": sorted(t.flags) if t.flags else [],
-                "graph": min(t.graphs) if t.graphs else None,
-                "id": tid,
-                "iri": spec.namespace + tid,
-                "labels": pref,  # writers sort keys themselves
-                "notation": min(t.notations) if t.notations else None,
-                "origin": t.origin,
-                "parents": [] if deprecated else h.parents[tid],
-                "replaced_by": replaced_by.get(tid),
-                "same_as": sorted(t.same_as) if t.same_as else [],
-                "source": t.source,
-                "status": "deprecated" if deprecated else "active",
-            }
+            TopicRecord(
+                {} if deprecated else names[tid][1],  # aliases
+                ws.compact(t.source) if t.source else None,  # curie
+                None if deprecated else h.depth[tid],
+                tuple(sorted(t.flags)) if t.flags else (),
+                min(t.graphs) if t.graphs else None,
+                tid,
+                spec.namespace + tid,  # iri
+                pref,  # labels (writers sort keys themselves)
+                min(t.notations) if t.notations else None,
+                t.origin,
+                () if deprecated else tuple(h.parents[tid]),
+                replaced_by.get(tid),
+                tuple(sorted(t.same_as)) if t.same_as else (),
+                t.source,
+                DEPRECATED if deprecated else ACTIVE,
+            )
         )
 
     step("making the lexicon")
     rows = []
     for r in records:
-        if r["status"] != "active":
+        if not r.is_active:
             continue
-        tid = r["id"]
-        for lang, text in r["labels"].items():
+        tid = r.id
+        for lang, text in r.labels.items():
             key = keys[text]
             if (tid, key) in unlisted:
                 dropped_aliases.append(
@@ -323,7 +313,7 @@ def build_vocabulary(
                 )
                 continue
             rows.append((key, tid, lang, "preferred", text))
-        for lang, texts in r["aliases"].items():
+        for lang, texts in r.aliases.items():
             for text in texts:
                 rows.append((keys[text], tid, lang, "alias", text))
     # rows are unique by construction (one preferred label per language, aliases
@@ -337,9 +327,12 @@ def build_vocabulary(
             sharing[row[0]] = {row[1]}
         else:
             s.add(row[1])
-    lexicon = [
-        (text, key, tid, lang, kind, len(sharing[key])) for key, tid, lang, kind, text in rows
-    ]
+    lexicon = tuple(
+        [
+            LexiconRow(text, key, tid, lang, kind, len(sharing[key]))
+            for key, tid, lang, kind, text in rows
+        ]
+    )
 
     step("making the report")
     dropped_topics = sorted(
@@ -354,10 +347,10 @@ def build_vocabulary(
     def by_reason(items, key):
         return dict(sorted(Counter(i[key].split(":")[0] for i in items).items()))
 
-    active_records = [r for r in records if r["status"] == "active"]
+    active_records = [r for r in records if r.is_active]
     counts = {
-        "added_by_curation": sum(1 for r in active_records if r["origin"] == "curation"),
-        "aliases": sum(len(v) for r in active_records for v in r["aliases"].values()),
+        "added_by_curation": sum(1 for r in active_records if r.origin == "curation"),
+        "aliases": sum(len(v) for r in active_records for v in r.aliases.values()),
         "ambiguous_keys": len(ambiguous),
         "curation_applied": len(curated.applied),
         "curation_stale": len(curated.stale),
@@ -369,28 +362,30 @@ def build_vocabulary(
         "dropped_topics_by_reason": by_reason(dropped_topics, "reason"),
         "id_clashes": len(clashes),
         "lexicon_rows": len(lexicon),
-        "max_depth": max((r["depth"] for r in active_records), default=0),
+        "max_depth": max((r.depth for r in active_records), default=0),
         "new_roots": len(h.new_roots),
         "reattached": len(h.reattached),
         "reductions": len(h.reductions),
-        "roots": sum(1 for r in active_records if not r["parents"]),
+        "roots": sum(1 for r in active_records if not r.parents),
         "selected": len(selected),
         "topics": len(active_records),
     }
-    report = {
-        "ambiguous": ambiguous,
-        "counts": counts,
-        "curation": {"applied": curated.applied, "stale": curated.stale},
-        "cycles": h.cycles,
-        "dropped_aliases": dropped_aliases,
-        "dropped_topics": dropped_topics,
-        "id_clashes": clashes,
-        "new_roots": h.new_roots,
-        "reattached": h.reattached,
-        "reductions": h.reductions,
-        "spec": {"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
-    }
-    return Build(spec, records, lexicon, report, label_tags)
+    report = Report(
+        ambiguous=ambiguous,
+        counts=counts,
+        curation={"applied": curated.applied, "stale": curated.stale},
+        cycles=h.cycles,
+        dropped_aliases=dropped_aliases,
+        dropped_topics=dropped_topics,
+        id_clashes=clashes,
+        new_roots=h.new_roots,
+        reattached=h.reattached,
+        reductions=h.reductions,
+        spec={"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
+    )
+    return Vocabulary(
+        scheme_of(spec), tuple(records), lexicon, report, label_tags, display_languages(spec)
+    )
 
 
 @contextlib.contextmanager
@@ -412,11 +407,15 @@ def _without_cyclic_gc() -> Iterator[None]:
 
 def compile_vocabulary(
     ws: Workspace,
-    spec_path: Path | str,
+    spec_path: VocabSpec | Path | str,
     strict: bool = False,
     progress: Callable[[str], None] | None = None,
 ) -> CompileResult:
-    """Compile the vocabulary of the spec at ``spec_path`` into ``vocab/<name>/build/``.
+    """Compile the vocabulary of the spec at ``spec_path`` (or of an already parsed
+    :class:`~kgkit.vocab.spec.VocabSpec`) into ``vocab/<name>/build/``.
+
+    Returns a :class:`CompileResult`: the :class:`~kgkit.vocab.model.Vocabulary`
+    in memory, the folder written and the summary.
 
     Raises :class:`kgkit.errors.SpecError` for a bad spec or curation file (before
     any work) and, with ``strict``, for a stale curation edit; the previous build
@@ -428,7 +427,7 @@ def compile_vocabulary(
         if progress:
             progress(text)
 
-    spec = load_spec(ws, spec_path)
+    spec = spec_path if isinstance(spec_path, VocabSpec) else load_spec(ws, spec_path)
     edits = load_curation(spec.curation) if spec.curation else []
     with _without_cyclic_gc(), connect(ws) as backend:
         step("selecting topics")
@@ -444,12 +443,11 @@ def compile_vocabulary(
         )
         popularity = run_popularity(backend, spec) if spec.prune.min_popularity else None
     with _without_cyclic_gc():
-        build = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict, step)
+        vocab = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict, step)
         del fetched
         step("writing the files")
-        files = build.renderers()  # one file's text in memory at a time
-        out = write_build(spec.build_dir, files)
-    c = build.report["counts"]
+        out = write_vocabulary(vocab, spec.build_dir, spec.outputs)
+    c = vocab.report.counts
     summary = {
         "aliases": c["aliases"],
         "ambiguous_keys": c["ambiguous_keys"],
@@ -462,4 +460,5 @@ def compile_vocabulary(
         "stale": c["curation_stale"],
         "topics": c["topics"],
     }
-    return CompileResult(out, summary, build.report, sorted(files))
+    files = sorted(vocabulary_files(vocab, spec.outputs))
+    return CompileResult(vocab, out, summary, files)

@@ -11,11 +11,12 @@ import json
 import os
 import re
 import shutil
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Mapping
 from json.encoder import encode_basestring as _js
 from pathlib import Path
 
-from kgkit.errors import KgkitError
+from kgkit.vocab.folder import LEXICON_HEADER, BuildFileError, read_topics
+from kgkit.vocab.model import TopicRecord
 
 __all__ = [
     "BuildFileError",
@@ -30,17 +31,16 @@ __all__ = [
     "yaml_text",
 ]
 
-LEXICON_HEADER = ("alias", "match_key", "topic", "language", "kind", "shared_by")
-
 
 # one encoder for every record: json.dumps with options builds a new one per call
 _encode = json.JSONEncoder(ensure_ascii=False, sort_keys=True).encode
 
 
-def jsonl_text(records: list[dict]) -> str:
+def jsonl_text(records: Iterable[TopicRecord]) -> str:
     """One topic per line, keys sorted, UTF-8 without ASCII escapes."""
     enc = _encode
-    return "".join([enc(r) + "\n" for r in records])
+    fields = TopicRecord._fields
+    return "".join([enc(dict(zip(fields, r, strict=True))) + "\n" for r in records])
 
 
 # characters PyYAML refuses inside a document, even quoted (YAML 1.1 printable set)
@@ -55,7 +55,7 @@ def _flow(value) -> str:
     kind = type(value)
     if kind is str:
         return _js(value)
-    if kind is list:
+    if kind is list or kind is tuple:
         if all(type(v) is str for v in value):
             return "[" + ", ".join(map(_js, value)) + "]"
         return "[" + ", ".join(_flow(v) for v in value) + "]"
@@ -74,21 +74,20 @@ def _flow(value) -> str:
     return _js(str(value))
 
 
-def yaml_text(scheme: dict, records: list[dict]) -> str:
+def yaml_text(scheme: dict, records: Iterable[TopicRecord]) -> str:
     """The topic file for review: the scheme, then every topic, one key per line."""
     lines = ["# Compiled by kgkit; edit the spec or the curation file, not this file.", "scheme:"]
     lines.extend(f"  {k}: {_flow(scheme[k])}" for k in sorted(scheme))
+    records = list(records)
     lines.append("topics:" if records else "topics: []")
     # every record has the same keys: sort them and make the line heads once, and write
     # the common values (strings, null, numbers, lists of strings) without a call to _flow
     js, flow = _js, _flow
-    shape: tuple = ()
+    keys = sorted(TopicRecord._fields)
+    heads = [f"  - {keys[0]}: "] + [f"\n    {k}: " for k in keys[1:]]
+    order = [TopicRecord._fields.index(k) for k in keys]
+    pairs = list(zip(heads, order, strict=True))
     for r in records:
-        if tuple(r) != shape:
-            shape = tuple(r)
-            keys = sorted(r)
-            heads = [f"  - {keys[0]}: "] + [f"\n    {k}: " for k in keys[1:]]
-            pairs = list(zip(heads, keys, strict=True))
         parts = []
         for head, k in pairs:
             v = r[k]
@@ -97,7 +96,7 @@ def yaml_text(scheme: dict, records: list[dict]) -> str:
                 parts.append(head + js(v))
             elif v is None:
                 parts.append(head + "null")
-            elif kind is list and not v:
+            elif (kind is tuple or kind is list) and not v:
                 parts.append(head + "[]")
             elif kind is dict and not v:
                 parts.append(head + "{}")
@@ -131,19 +130,23 @@ def _tl(text: str, lang: str) -> str:
 
 
 def skos_text(
-    scheme_iri: str, title: str, records: list[dict], label_languages: dict[str, dict[str, str]]
+    scheme_iri: str,
+    title: str,
+    records: Iterable[TopicRecord],
+    label_languages: Mapping[str, Mapping[str, str]],
 ) -> str:
     """SKOS in Turtle (W3C SKOS Reference, 2009): one concept scheme, one concept per topic.
 
     ``label_languages``: topic -> {language of ``labels`` -> language tag to write},
     for preferred labels lent by a fallback language (written with their own tag).
     """
-    iri_of = {r["id"]: r["iri"] for r in records}
+    records = list(records)
+    iri_of = {r.id: r.iri for r in records}
     children: dict[str, list[str]] = {}
     for r in records:
-        for p in r["parents"]:
-            children.setdefault(p, []).append(r["id"])
-    tops = [r["iri"] for r in records if r["status"] == "active" and not r["parents"]]
+        for p in r.parents:
+            children.setdefault(p, []).append(r.id)
+    tops = [r.iri for r in records if r.is_active and not r.parents]
     out = [
         "@prefix dct: <http://purl.org/dc/terms/> .",
         "@prefix owl: <http://www.w3.org/2002/07/owl#> .",
@@ -165,35 +168,35 @@ def skos_text(
 
     for r in records:
         props = [in_scheme]
-        tags = label_languages.get(r["id"], no_tags)
-        labels = r["labels"]
+        tags = label_languages.get(r.id, no_tags)
+        labels = r.labels
         seen = set()
         for lang in sorted(labels):
             pair = (labels[lang], tags.get(lang, lang))
             if pair not in seen:
                 seen.add(pair)
                 props.append("skos:prefLabel " + lit(*pair))
-        aliases = r["aliases"]
+        aliases = r.aliases
         for lang in sorted(aliases):
             for a in aliases[lang]:
                 if (a, lang) not in seen:
                     props.append("skos:altLabel " + lit(a, lang))
-        if r["status"] == "active":
-            if not r["parents"]:
+        if r.is_active:
+            if not r.parents:
                 props.append(top_of)
-            for p in r["parents"]:
+            for p in r.parents:
                 props.append(f"skos:broader <{iri_of[p]}>")
-            kids = children.get(r["id"])
+            kids = children.get(r.id)
             if kids:
                 for c in sorted(kids):
                     props.append(f"skos:narrower <{iri_of[c]}>")
         else:
             props.append("owl:deprecated true")
-            if r["replaced_by"] and r["replaced_by"] in iri_of:
-                props.append(f"dct:isReplacedBy <{iri_of[r['replaced_by']]}>")
-        if r["notation"] is not None:
-            props.append("skos:notation " + _tq(r["notation"]))
-        out.append(f"\n<{r['iri']}> a skos:Concept ;\n    " + " ;\n    ".join(props) + " .")
+            if r.replaced_by and r.replaced_by in iri_of:
+                props.append(f"dct:isReplacedBy <{iri_of[r.replaced_by]}>")
+        if r.notation is not None:
+            props.append("skos:notation " + _tq(r.notation))
+        out.append(f"\n<{r.iri}> a skos:Concept ;\n    " + " ;\n    ".join(props) + " .")
     return "\n".join(out) + "\n"
 
 
@@ -267,38 +270,3 @@ def write_build(build_dir: Path, files: dict[str, str | Callable[[], str]]) -> P
         raise
     shutil.rmtree(old, ignore_errors=True)
     return build_dir
-
-
-class BuildFileError(KgkitError):
-    """A build or release file that cannot be read back."""
-
-
-def read_topics(path: Path | str, missing_ok: bool = False) -> dict[str, dict]:
-    """The topics of a ``topics.jsonl`` file by id, in file order.
-
-    A malformed line raises :class:`BuildFileError` naming the file and line.
-    """
-    path = Path(path)
-    out: dict[str, dict] = {}
-    try:
-        fh = path.open(encoding="utf-8")
-    except FileNotFoundError:
-        if missing_ok:
-            return out
-        raise BuildFileError(f"{path}: no such topic file") from None
-    with fh:
-        for n, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                t = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise BuildFileError(f"{path}:{n}: not a JSON object ({exc.msg})") from None
-            except UnicodeDecodeError:
-                raise BuildFileError(f"{path}:{n}: not UTF-8 text") from None
-            if not isinstance(t, dict) or not isinstance(t.get("id"), str):
-                raise BuildFileError(f"{path}:{n}: a topic needs a string 'id'")
-            if t["id"] in out:
-                raise BuildFileError(f"{path}:{n}: topic id {t['id']!r} appears twice")
-            out[t["id"]] = t
-    return out
