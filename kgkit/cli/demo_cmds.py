@@ -24,6 +24,8 @@ def demo_command(directory: Path | None) -> None:
     """
     if directory is None:
         directory = Path(tempfile.mkdtemp(prefix="kgkit-demo-"))
+    # one form for every path the demo prints: relative when below the current folder
+    directory = Path(_shown(directory))
     t0 = time.perf_counter()
     for n, step in enumerate(iter_demo(directory), 1):
         click.echo(f"{n}. {step.title}")

@@ -206,7 +206,7 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     for k in report.keys[:5]:
         flag = "  too common" if k.flagged else ""
         lines.append(f"  {k.key!r} in {k.documents} documents ({k.share:.0%}){flag}")
-    yield DemoStep("probed the corpus with release 1", lines, [])
+    yield DemoStep(f"probed the corpus with release {first.version}", lines, [])
 
     text = curation.read_text(encoding="utf-8") + _asset("curation-edits.yaml")
     for e in edits:
@@ -270,6 +270,6 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
             f"{c.topic} (under {', '.join(p for p, _l in c.parents) or 'nothing'})"
             for c in h.candidates
         )
-        mark = "  AMBIGUOUS" if h.is_ambiguous else ""
+        mark = "  ambiguous" if h.is_ambiguous else ""
         lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}{mark}")
     yield DemoStep(f"probed {article.name} with release {second.version}", lines, [])
