@@ -41,6 +41,7 @@ __all__ = [
     "BuildFileError",
     "DemoError",
     "DiffError",
+    "GateError",
     "LintTargetError",
     "ManifestError",
     "NothingChangedError",
@@ -209,6 +210,11 @@ class BuildFileError(InputError):
 
 class ReleaseError(KgkitError):
     """A release cannot be made (existing folder, missing build output, ...)."""
+
+
+class GateError(ReleaseError):
+    """A vocabulary fails release gates (:mod:`kgkit.release.gates`); ``details``
+    holds one line per problem."""
 
 
 class ManifestError(InputError):

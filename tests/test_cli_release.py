@@ -65,6 +65,7 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
 
     v = kgkit("verify", str(home / "2.0.0"))
     assert v.exit_code == 0 and v.output == f"{home / '2.0.0'}: release 2.0.0 intact (7 files)\n"
+    kept = (home / "2.0.0" / "topics.yaml").read_bytes()
     (home / "2.0.0" / "topics.yaml").write_text("topics: []\n", encoding="utf-8")
     v = kgkit("verify", str(home / "2.0.0"))
     assert v.exit_code == 1
@@ -72,6 +73,10 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
     assert v.output.endswith(f"{home / '2.0.0'}: 1 problem\n")
     v = kgkit("verify", str(home / "2.0.0"), "--json")
     assert last_json(v.output)["problems"][0]["file"] == "topics.yaml"
+    r = kgkit("release", str(spec), "--as-version", "9.0.0")
+    assert r.exit_code == 1 and r.output.startswith(f"Error: {home / '2.0.0' / 'topics.yaml'}: ")
+    assert len(r.output.splitlines()) == 1 and "9.0.0" not in {p.name for p in home.iterdir()}
+    (home / "2.0.0" / "topics.yaml").write_bytes(kept)
 
     lint = kgkit("lint", str(home / "1.0.0"), "--json")
     assert lint.exit_code == 0, lint.output

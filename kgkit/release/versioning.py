@@ -20,21 +20,27 @@ numbers: no pre-release or build parts, no leading zeros.
 
 from __future__ import annotations
 
+import os
 import re
-from dataclasses import dataclass
+import shutil
+from dataclasses import dataclass, field
 from pathlib import Path
 
-from kgkit.errors import KgkitError
+from kgkit.errors import NothingChangedError, VersionError
 
 __all__ = [
     "LEVEL_OF_KIND",
     "NothingChangedError",
+    "ReleaseFolders",
     "Version",
     "VersionError",
     "bump",
     "bump_level",
+    "clear_leftovers",
     "list_releases",
     "next_version",
+    "scan_releases",
+    "temp_prefix",
 ]
 
 _SEMVER = re.compile(r"^(0|[1-9]\d*)\.(0|[1-9]\d*)\.(0|[1-9]\d*)$")
@@ -54,14 +60,6 @@ LEVEL_OF_KIND = {
     "replacement-changed": "patch",
 }
 _RANK = {"patch": 1, "minor": 2, "major": 3}
-
-
-class VersionError(KgkitError):
-    """A version is malformed or not greater than the previous release."""
-
-
-class NothingChangedError(KgkitError):
-    """No topic changed since the previous release and no version was given."""
 
 
 @dataclass(frozen=True, order=True)
@@ -138,11 +136,98 @@ def next_version(
     return bump(previous, level), level
 
 
-def list_releases(folder: Path) -> list[Version]:
-    """Versions of the release folders directly under ``folder``, oldest first."""
+@dataclass
+class ReleaseFolders:
+    """What lies under ``vocab/NAME/``: releases, and folders that only look like one.
+
+    ``releases``: versions of the folders that hold a manifest, oldest first.
+    ``strays``: folders named like a version that hold no manifest (made by hand, or
+    a copy cut short); they are not releases and a release ignores them.
+    """
+
+    releases: list[Version] = field(default_factory=list)
+    strays: list[Path] = field(default_factory=list)
+
+    def warnings(self) -> list[str]:
+        return [
+            f"{p}: named like a version but holds no manifest.json; not a release, ignored"
+            for p in self.strays
+        ]
+
+
+def scan_releases(folder: Path) -> ReleaseFolders:
+    """Sort the version-named folders directly under ``folder`` into releases and strays."""
+    from kgkit.release.manifest import MANIFEST
+
     folder = Path(folder)
+    out = ReleaseFolders()
     if not folder.is_dir():
-        return []
-    return sorted(
-        Version.parse(p.name) for p in folder.iterdir() if p.is_dir() and Version.is_version(p.name)
-    )
+        return out
+    for p in sorted(folder.iterdir()):
+        if not Version.is_version(p.name) or not p.is_dir():
+            continue
+        if (p / MANIFEST).exists() or (p / MANIFEST).is_symlink():
+            out.releases.append(Version.parse(p.name))
+        else:
+            out.strays.append(p)
+    out.releases.sort()
+    return out
+
+
+def list_releases(folder: Path) -> list[Version]:
+    """Versions of the release folders (those holding a manifest) directly under
+    ``folder``, oldest first."""
+    return scan_releases(folder).releases
+
+
+# Temporary folders of a compile (``.build.tmp-PID``, ``.build.old-PID``) and of a
+# release (``.VERSION.tmp-PID-RANDOM``) beside the build and release folders.
+_LEFTOVER = re.compile(
+    r"^\.(?:build\.(?:tmp|old)-(?P<pid>\d+)"
+    r"|(?:0|[1-9]\d*)\.(?:0|[1-9]\d*)\.(?:0|[1-9]\d*)\.tmp-(?:(?P<rpid>\d+)-)?[^/]*)$"
+)
+
+
+def temp_prefix(version: Version | str) -> str:
+    """Prefix of the temporary folder a release of ``version`` is written into (names
+    the process, so that :func:`clear_leftovers` leaves a running release alone)."""
+    return f".{version}.tmp-{os.getpid()}-"
+
+
+def _is_running(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError, OSError):
+        return True  # exists (another user's), or cannot tell: leave it
+    return True
+
+
+def clear_leftovers(folder: Path) -> list[Path]:
+    """Remove the temporary folders that killed compiles and releases left in ``folder``.
+
+    Only folders named as kgkit names them, made by a process that is no longer
+    running (a name without a process id, from an older kgkit, counts as left over),
+    and only real folders (a symbolic link is never followed or removed). Returns
+    the paths removed.
+    """
+    folder = Path(folder)
+    removed = []
+    try:
+        entries = sorted(folder.iterdir())
+    except OSError:
+        return removed
+    for p in entries:
+        m = _LEFTOVER.match(p.name)
+        if not m or p.is_symlink() or not p.is_dir():
+            continue
+        pid = m["pid"] or m["rpid"]
+        if pid is not None and _is_running(int(pid)):
+            continue
+        shutil.rmtree(p, ignore_errors=True)
+        if not p.exists():
+            removed.append(p)
+    return removed

@@ -1,0 +1,427 @@
+"""Release gates: what a vocabulary must pass before it is released.
+
+A release is used unattended, so ``kgkit release`` refuses, before it writes
+anything, a vocabulary that fails a gate; ``kgkit compile`` reports the same
+problems as warnings (errors with ``strict``). The gates, by name:
+
+==================== ==========================================================
+``no-topics``        the vocabulary has no active topic
+``no-label``         an active topic has no preferred label in any language
+``missing-language`` an active topic has no preferred label in a language of
+                     the spec's ``languages.required``
+``lint-error``       ``kgkit lint`` finds a problem of level error in the SKOS
+                     file the vocabulary makes
+``unknown-entity``   a ``select`` root (any ``iri`` parameter of a template
+                     run), an ``include`` or ``exclude`` entity, or a curation
+                     edit's target that no graph mentions (and, for a
+                     curation target, no topic has); the nearest names are
+                     suggested the way ``kgkit find`` finds them
+``topic-loss``       more of the previous release's active topics are gone
+                     without an active replacement than the spec's
+                     ``release.max_topic_loss`` allows (a share; default
+                     :data:`DEFAULT_MAX_TOPIC_LOSS`): a dump cut short must
+                     not become a release
+==================== ==========================================================
+
+Every problem is one line that names the topics by label and id. The owner can
+release past a gate by waiving it with a reason; the manifest and the changelog
+record which gates were waived and why (see :mod:`kgkit.release.release`).
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
+from kgkit.errors import KgkitError, one_line
+from kgkit.vocab.aliases import lang_matches
+
+__all__ = [
+    "DEFAULT_MAX_TOPIC_LOSS",
+    "GATES",
+    "GateProblem",
+    "check_labels",
+    "check_lint",
+    "check_references",
+    "check_topic_loss",
+    "gate_problems",
+    "topic_text",
+]
+
+#: gate name -> what it refuses
+GATES: dict[str, str] = {
+    "no-topics": "the vocabulary has no active topic",
+    "no-label": "an active topic has no preferred label",
+    "missing-language": "an active topic has no preferred label in a required language",
+    "lint-error": "lint finds a problem of level error",
+    "unknown-entity": "a select root, include/exclude entity or curation target no graph mentions",
+    "topic-loss": "more of the previous release's topics lost than the spec allows",
+}
+
+#: The share of the previous release's active topics a release may lose (gone, or
+#: deprecated without an active replacement) before the ``topic-loss`` gate refuses it.
+#: Ten per cent: a refresh of a maintained graph loses far less (common practice, no
+#: source), while a dump cut short, a wrong graph or a mistyped root loses far more.
+DEFAULT_MAX_TOPIC_LOSS = 0.1
+
+#: topics named in one problem line before "and N more"
+SHOWN = 5
+
+
+@dataclass(frozen=True)
+class GateProblem:
+    """One reason a vocabulary cannot be released: the gate and one line for a person."""
+
+    gate: str
+    message: str
+
+    def __str__(self) -> str:
+        return f"{self.message} [gate {self.gate}]"
+
+    def to_json(self) -> dict:
+        return {"gate": self.gate, "message": self.message}
+
+
+def topic_text(label: str | None, topic_id: str) -> str:
+    """How a person sees a topic in a message: its label beside its id.
+
+    >>> topic_text("canoe polo", "canoe-polo"), topic_text(None, "n0042")
+    ('canoe polo (canoe-polo)', 'n0042 (no label)')
+    """
+    return f"{label} ({topic_id})" if label else f"{topic_id} (no label)"
+
+
+def _shown(vocab, records) -> str:
+    records = list(records)
+    out = ", ".join(topic_text(vocab.display_label(t.id), t.id) for t in records[:SHOWN])
+    if len(records) > SHOWN:
+        out += f" and {len(records) - SHOWN} more"
+    return out
+
+
+def _topics(n: int) -> str:
+    return f"{n} active topic{'' if n == 1 else 's'}"
+
+
+def check_labels(vocab, required: Sequence[str] = ()) -> list[GateProblem]:
+    """``no-topics``, ``no-label`` and ``missing-language`` (one line per language)."""
+    active = vocab.active_topics()
+    if not active:
+        return [GateProblem("no-topics", "the vocabulary has no active topic")]
+    out = []
+    unlabelled = [t for t in active if not t.labels]
+    if unlabelled:
+        shown = [
+            f"{t.id} ({t.curie or t.source or 'added by curation'})" for t in unlabelled[:SHOWN]
+        ]
+        more = f" and {len(unlabelled) - SHOWN} more" if len(unlabelled) > SHOWN else ""
+        out.append(
+            GateProblem(
+                "no-label",
+                f"{_topics(len(unlabelled))} without any preferred label "
+                f"(is the entity still in the graph?): {', '.join(shown)}{more}",
+            )
+        )
+    for lang in required:
+        missing = [
+            t for t in active if t.labels and not any(lang_matches(x, [lang]) for x in t.labels)
+        ]
+        if missing:
+            out.append(
+                GateProblem(
+                    "missing-language",
+                    f"{_topics(len(missing))} without a preferred label in {lang!r} "
+                    f"(languages.required): {_shown(vocab, missing)}",
+                )
+            )
+    return out
+
+
+def check_lint(vocab, skos: str | None) -> list[GateProblem]:
+    """``lint-error``: one line per lint check of level error that fires on the SKOS text."""
+    if skos is None:
+        return []
+    import rdflib
+
+    from kgkit.release.lint import lint_graph
+
+    g = rdflib.Graph()
+    g.parse(data=skos, format="turtle")
+    report = lint_graph(g, target="skos.ttl")
+    ns = vocab.scheme.namespace
+    by_check: dict[str, list] = {}
+    for f in report.errors:
+        by_check.setdefault(f.check, []).append(f)
+    out = []
+    for check, findings in by_check.items():
+        ids = sorted({s[len(ns) :] for f in findings for s in f.subjects if s.startswith(ns)})
+        topics = [vocab.topic(i) for i in ids if i in vocab]
+        n = len(findings)
+        where = f" on {_shown(vocab, topics)}" if topics else ""
+        out.append(
+            GateProblem(
+                "lint-error",
+                f"lint check {check} fires {n} time{'' if n == 1 else 's'}{where}: "
+                f"{findings[0].message}",
+            )
+        )
+    return out
+
+
+def _followed(vocab, tid: str | None) -> str | None:
+    """The active topic a deprecated topic's replacement chain ends at, or None."""
+    seen = set()
+    while tid is not None and tid in vocab and tid not in seen:
+        t = vocab.topic(tid)
+        if t.is_active:
+            return tid
+        seen.add(tid)
+        tid = t.replaced_by
+    return None
+
+
+def check_topic_loss(
+    vocab,
+    previous,
+    max_share: float = DEFAULT_MAX_TOPIC_LOSS,
+    previous_name: str = "the previous release",
+) -> list[GateProblem]:
+    """``topic-loss``: the previous release's active topics that are neither active
+    nor replaced by an active topic now, against the share the spec allows."""
+    if previous is None:
+        return []
+    before = previous.active_topics()
+    if not before:
+        return []
+    lost = []
+    for t in before:
+        if t.id in vocab and _followed(vocab, t.id) is not None:
+            continue
+        rep = t.replaced_by if t.id not in vocab else vocab.topic(t.id).replaced_by
+        if _followed(vocab, rep) is None:
+            lost.append(t)
+    share = len(lost) / len(before)
+    if share <= max_share:
+        return []
+    return [
+        GateProblem(
+            "topic-loss",
+            f"{len(lost)} of the {len(before)} active topics of {previous_name} are gone "
+            f"without a replacement ({share:.0%}, more than the {max_share:.0%} "
+            f"release.max_topic_loss allows; was the dump cut short?): {_shown(previous, lost)}",
+        )
+    ]
+
+
+# --- references no graph mentions ------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Ref:
+    where: str  # "FILE:LINE" (or FILE)
+    what: str  # e.g. "select[0] parameter 'root'", "edit 3 (add_alias) topic"
+    text: str  # as written
+    iri: str | None  # expanded, or None for a plain topic id (or a bad CURIE)
+
+
+def _spec_refs(ws, spec) -> list[_Ref]:
+    from kgkit.templates import load_template
+    from kgkit.vocab.spec import _key_lines
+
+    try:
+        lines = _key_lines(Path(spec.path).read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError):
+        lines = {}
+
+    def at(key: str) -> str:
+        line = lines.get(key)
+        return f"{spec.path}:{line}" if line else str(spec.path)
+
+    out = []
+    for i, sel in enumerate(spec.select):
+        try:
+            kinds = {p.name: p.kind for p in load_template(ws, sel.template).params}
+        except KgkitError:
+            continue
+        for name in sorted(sel.params):
+            if kinds.get(name) != "iri":
+                continue
+            text = sel.params[name]
+            out.append(
+                _Ref(
+                    at(f"select[{i}].params.{name}"),
+                    f"select[{i}] parameter {name!r}",
+                    text,
+                    _expand(ws, text),
+                )
+            )
+    for key in ("include", "exclude"):
+        for i, iri in enumerate(getattr(spec, key)):
+            out.append(_Ref(at(f"{key}[{i}]"), f"{key}[{i}]", ws.compact(iri), iri))
+    return out
+
+
+def _expand(ws, text: str) -> str | None:
+    try:
+        return ws.expand(text)
+    except KgkitError:
+        return None
+
+
+_FIELDS = ("topic", "into", "parent")
+
+
+def _curation_refs(ws, spec, edits) -> list[_Ref]:
+    out = []
+    for e in edits:
+        where = f"{spec.curation}:{e.line}" if e.line else str(spec.curation)
+        number = getattr(e, "number", e.index + 1)
+        refs = [(f, e.args[f]) for f in _FIELDS if isinstance(e.args.get(f), str)]
+        refs += [("parents", p) for p in e.args.get("parents") or () if isinstance(p, str)]
+        for field_name, text in refs:
+            iri = _expand(ws, text) if ":" in text else None
+            out.append(_Ref(where, f"edit {number} ({e.action}) {field_name}", text, iri))
+    return out
+
+
+def _mentioned(backend, iri: str, graphs) -> bool:
+    import pyoxigraph as ox
+
+    from kgkit.query import run_query
+
+    try:
+        node = ox.NamedNode(iri)
+    except ValueError:
+        return False
+    q = f"ASK {{ {{ {node} ?p ?o }} UNION {{ ?s ?p {node} }} }}"
+    return bool(run_query(backend, q, graphs=graphs).boolean)
+
+
+_WORDS = re.compile(r"[A-Za-z0-9]+|[^\sA-Za-z0-9_./#:-]+")
+
+
+def _local_name(text: str) -> str:
+    text = text.strip("<>")
+    return re.split(r"[/#:]", text)[-1] or text
+
+
+def _nearest_entities(backend, ref: _Ref, graphs, limit: int = 3) -> list[str]:
+    """Entities named most like the reference's local name, found as ``kgkit find`` does."""
+    from kgkit.entities import find_entities
+
+    local = _local_name(ref.iri or ref.text)
+    words = sorted(
+        _WORDS.findall(re.sub(r"([a-z])([A-Z])", r"\1 \2", local)), key=len, reverse=True
+    )
+    tries = [local, *words, *(w[: max(3, len(w) // 2)] for w in words if len(w) > 3)]
+    found = {}
+    for text in dict.fromkeys(t for t in tries if len(t) >= 2):
+        try:
+            for m in find_entities(backend, text, limit=20, graphs=graphs):
+                found.setdefault(m.iri, m)
+        except KgkitError:
+            continue
+        if len(found) >= limit:
+            break
+    key = local.casefold()
+
+    def score(m) -> float:
+        names = (_local_name(m.iri), m.name, m.label or "")
+        return max(difflib.SequenceMatcher(None, key, n.casefold()).ratio() for n in names)
+
+    best = sorted(found.values(), key=lambda m: (-score(m), m.curie))[:limit]
+    return [f"{m.label or m.name} ({m.curie})" for m in best]
+
+
+def _nearest_topics(text: str, vocabs, limit: int = 3) -> list[str]:
+    """Topic ids and labels most like ``text`` among the given vocabularies."""
+    names: dict[str, tuple] = {}
+    for v in vocabs:
+        if v is None:
+            continue
+        for t in v.topics:
+            label = v.display_label(t.id)
+            names.setdefault(t.id.casefold(), (t.id, label))
+            if label:
+                names.setdefault(label.casefold(), (t.id, label))
+    hits = difflib.get_close_matches(text.casefold(), list(names), n=limit * 3, cutoff=0.6)
+    out = []
+    for h in hits:
+        shown = topic_text(names[h][1], names[h][0])
+        if shown not in out:
+            out.append(shown)
+    return out[:limit]
+
+
+def check_references(
+    backend, ws, spec, edits: Iterable = (), vocabs: Iterable = ()
+) -> list[GateProblem]:
+    """``unknown-entity``: select roots, include/exclude entities and curation targets
+    that no graph mentions (curation targets: and that no topic of ``vocabs``, the
+    vocabulary and its previous release, has), each with the nearest names."""
+    vocabs = [v for v in vocabs if v is not None]
+    known_ids = {t.id for v in vocabs for t in v.topics}
+    known_iris = {x for v in vocabs for t in v.topics for x in (t.source, t.iri) if x}
+    graphs = list(spec.graphs) if spec.graphs else None
+    out = []
+    asked: dict[str, bool] = {}
+    for ref in [*_spec_refs(ws, spec), *_curation_refs(ws, spec, edits)]:
+        is_curation = ref.what.startswith("edit ")
+        if is_curation and ref.iri is None and ref.text in known_ids:
+            continue
+        if ref.iri is not None and is_curation and ref.iri in known_iris:
+            continue
+        if ref.iri is not None:
+            if ref.iri not in asked:
+                asked[ref.iri] = _mentioned(backend, ref.iri, graphs)
+            if asked[ref.iri]:
+                continue
+            near = _nearest_entities(backend, ref, graphs)
+            if is_curation:
+                near += [n for n in _nearest_topics(_local_name(ref.text), vocabs) if n not in near]
+            cause = "no graph mentions it"
+        elif ":" in ref.text:
+            near, cause = [], "its prefix is not one of the workspace's"
+        else:
+            near = _nearest_topics(ref.text, vocabs)
+            cause = "no topic has this id"
+        hint = f"; nearest: {', '.join(near[:3])}" if near else "; no similar name found"
+        out.append(
+            GateProblem(
+                "unknown-entity",
+                one_line(f"{ref.where}: {ref.what} {ref.text!r}: {cause}{hint}"),
+            )
+        )
+    return out
+
+
+def gate_problems(
+    vocab,
+    spec,
+    *,
+    previous=None,
+    previous_name: str = "the previous release",
+    skos: str | None = None,
+    backend=None,
+    ws=None,
+    edits: Iterable = (),
+) -> list[GateProblem]:
+    """Every problem that keeps ``vocab`` (compiled from ``spec``) from being released.
+
+    ``previous``: the vocabulary of the previous release (for ``topic-loss`` and to
+    know curation targets); ``skos``: the SKOS text the vocabulary makes (for
+    ``lint-error``); ``backend`` and ``ws``: the store or endpoint the compile read
+    (for ``unknown-entity``); ``edits``: the curation edits. A gate whose input is
+    not given is not checked. An empty list means the vocabulary may be released.
+    """
+    out = check_labels(vocab, spec.languages.required)
+    if vocab.active_topics():
+        out += check_lint(vocab, skos)
+    if backend is not None and ws is not None:
+        out += check_references(backend, ws, spec, edits, (vocab, previous))
+    max_share = spec.max_topic_loss
+    out += check_topic_loss(vocab, previous, max_share, previous_name)
+    return out
