@@ -4,6 +4,11 @@ These run the built-in templates (``card``, ``search``, ``descendants``) and a f
 small look-ups of labels and parents, so they work unchanged on the embedded store
 and on a remote endpoint. They return data; :func:`format_tree` and
 :func:`format_card` turn it into text for the command line.
+
+Entities are named by CURIE, ``<IRI>``, exact label or code (the profile's
+``notation``). With graph settings in ``kgkit.yaml`` (``graphs:``), labels are read
+graph by graph: each graph's own label and parent predicates, and its untagged
+literals in its ``untagged_language``.
 """
 
 from __future__ import annotations
@@ -14,9 +19,9 @@ from dataclasses import dataclass, field
 
 import pyoxigraph as ox
 
-from kgkit.errors import KgkitError
+from kgkit.errors import AmbiguousTermError, KgkitError
 from kgkit.query import Backend, run_query
-from kgkit.templates import bind_template, load_template, run_template
+from kgkit.templates import bind_template, load_template, read_graphs, run_template
 
 __all__ = [
     "AmbiguousTermError",
@@ -50,17 +55,6 @@ def _rows_for_items(backend: Backend, select: str, body: str, iris, graphs):
         yield from run_query(backend, q, graphs=graphs).rows
 
 
-class AmbiguousTermError(KgkitError):
-    """A label names several entities; ``candidates`` lists them."""
-
-    def __init__(self, term: str, candidates: list[Match]):
-        self.candidates = candidates
-        lines = [f"{term!r} is the label of {len(candidates)} entities; name one by CURIE or IRI:"]
-        for c in candidates:
-            lines.append("  " + _describe(c))
-        super().__init__("\n".join(lines))
-
-
 @dataclass
 class Match:
     """One entity found by name."""
@@ -69,7 +63,7 @@ class Match:
     curie: str
     name: str
     language: str
-    kind: str  # "label" | "alias"
+    kind: str  # "label" | "alias" | "code"
     how: str  # "exact" | "prefix" | "word" | "substring"
     label: str | None = None  # its preferred label, when the match was an alias
     parents: list[tuple[str, str | None]] = field(default_factory=list)  # (curie, label)
@@ -77,8 +71,8 @@ class Match:
 
 def _describe(m: Match) -> str:
     shown = f"{m.curie}  {m.label or m.name}"
-    if m.kind == "alias":
-        shown += f"  (alias {m.name!r})"
+    if m.kind in ("alias", "code"):
+        shown += f"  ({m.kind} {m.name!r})"
     if m.parents:
         shown += "  under " + ", ".join(label or curie for curie, label in m.parents)
     return shown
@@ -128,20 +122,46 @@ def _lang_rank(lang: str, languages: tuple[str, ...]) -> int:
     return len(languages) + (0 if lang == "" else 1)
 
 
+def _per_graph(backend: Backend) -> dict[str, tuple] | None:
+    """content graph IRI -> (profile, untagged language) when ``kgkit.yaml`` has graph
+    settings (``None`` without them: one profile reads every graph)."""
+    ws = backend.ws
+    names = getattr(backend, "graph_names", None) or {}
+    if not ws.config.graphs or not names:
+        return None
+    return {iri: (ws.profile_for(n), ws.untagged_language(n) or "") for iri, n in names.items()}
+
+
+def _role_rows(backend: Backend, role: str, select: str, iris, graphs):
+    """(item, predicate, object, profile, untagged language) for the ``role`` statements
+    of ``iris``, each read with the settings of the graph holding it."""
+    ws = backend.ws
+    preds = list(ws.profile_over(read_graphs(backend, graphs))[role])
+    if not preds or not iris:
+        return
+    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
+    per_graph = _per_graph(backend)
+    if per_graph is None:
+        body = f"?item ?p ?o . FILTER(?p IN ({plist}) && {select}(?o))"
+        for item, p, o in _rows_for_items(backend, "?item ?p ?o", body, iris, graphs):
+            yield item, p, o, ws.profile, ""
+        return
+    body = f"GRAPH ?g {{ ?item ?p ?o }} FILTER(?p IN ({plist}) && {select}(?o))"
+    for item, p, o, g in _rows_for_items(backend, "?item ?p ?o ?g", body, iris, graphs):
+        prof, untagged = per_graph.get(g.value, (ws.profile, ""))
+        if p.value in prof[role]:
+            yield item, p, o, prof, untagged
+
+
 def labels_of(backend: Backend, iris: list[str], graphs: list[str] | None = None) -> dict[str, str]:
     """The preferred label of each IRI that has one: the workspace languages in
     order, then untagged, then any; label predicates in profile order."""
     ws = backend.ws
-    preds = list(ws.profile["label"])
-    if not preds or not iris:
-        return {}
     best: dict[str, tuple] = {}
-    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
-    body = f"?item ?p ?l . FILTER(?p IN ({plist}) && isLiteral(?l))"
-    for item, p, lit in _rows_for_items(backend, "?item ?p ?l", body, iris, graphs):
+    for item, p, lit, prof, untagged in _role_rows(backend, "label", "isLiteral", iris, graphs):
         key = (
-            _lang_rank(lit.language or "", ws.config.languages),
-            preds.index(p.value),
+            _lang_rank(lit.language or untagged, ws.config.languages),
+            prof["label"].index(p.value),
             lit.value,
         )
         if item.value not in best or key < best[item.value][0]:
@@ -152,20 +172,15 @@ def labels_of(backend: Backend, iris: list[str], graphs: list[str] | None = None
 def _parents_of(
     backend: Backend, iris: list[str], graphs: list[str] | None = None
 ) -> dict[str, list[str]]:
-    preds = list(backend.ws.profile["parent"])
     out: dict[str, list[str]] = {x: [] for x in iris}
-    if not preds or not iris:
-        return out
-    plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
-    body = f"?item ?p ?parent . FILTER(?p IN ({plist}) && isIRI(?parent))"
-    for item, parent in _rows_for_items(backend, "DISTINCT ?item ?parent", body, iris, graphs):
+    for item, _p, parent, _prof, _u in _role_rows(backend, "parent", "isIRI", iris, graphs):
         out[item.value].append(parent.value)
     return {k: sorted(set(v)) for k, v in out.items()}
 
 
 def _exact_label_matches(backend: Backend, text: str, graphs: list[str] | None = None) -> list[str]:
     ws = backend.ws
-    preds = list(ws.profile["label"])
+    preds = list(ws.profile_over(read_graphs(backend, graphs))["label"])
     if not preds:
         return []
     plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
@@ -187,10 +202,30 @@ def _exact_label_matches(backend: Backend, text: str, graphs: list[str] | None =
     return sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
 
 
-def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -> str:
-    """The IRI a CURIE, ``<IRI>`` or exact label names.
+def _code_matches(backend: Backend, text: str, graphs: list[str] | None = None) -> list[str]:
+    """Entities whose code (a value of the profile's ``notation``) is ``text``, whatever
+    the literal's datatype (SKOS notations often carry one of their own)."""
+    preds = list(backend.ws.profile_over(read_graphs(backend, graphs))["notation"])
+    if not preds or not text.strip():
+        return []
+    path = "|".join(str(ox.NamedNode(p)) for p in preds)
+    # the plain literal through the index first; a typed one by a scan of the notations
+    q = f"SELECT DISTINCT ?item WHERE {{ ?item ({path}) {ox.Literal(text)} }}"
+    found = sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
+    if found:
+        return found
+    q = (
+        f"SELECT DISTINCT ?item WHERE {{ ?item ({path}) ?code . "
+        f"FILTER(isLiteral(?code) && STR(?code) = {ox.Literal(text)}) }}"
+    )
+    return sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
 
-    Raises :class:`AmbiguousTermError` when a label names several entities.
+
+def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -> str:
+    """The IRI a CURIE, ``<IRI>``, exact label or code (the profile's ``notation``)
+    names; a label is tried before a code.
+
+    Raises :class:`AmbiguousTermError` when a label (or code) names several entities.
     """
     ws = backend.ws
     if _is_identifier(term, backend):
@@ -199,8 +234,12 @@ def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -
         except (KgkitError, ValueError) as exc:
             raise KgkitError(f"{term!r} is not a valid IRI or CURIE ({exc})") from None
     found = _exact_label_matches(backend, term, graphs)
+    how = "label"
     if not found:
-        raise KgkitError(f"no entity is labelled {term!r}; try `kgkit find {term}`")
+        found = _code_matches(backend, term, graphs)
+        how = "code"
+    if not found:
+        raise KgkitError(f"no entity is labelled or coded {term!r}; try `kgkit find {term}`")
     if len(found) > 1:
         labels = labels_of(backend, found, graphs)
         parents = _parents_of(backend, found, graphs)
@@ -209,16 +248,16 @@ def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -
             Match(
                 iri=x,
                 curie=ws.compact(x),
-                name=labels.get(x, term),
+                name=term if how == "code" else labels.get(x, term),
                 language="",
-                kind="label",
+                kind=how,
                 how="exact",
                 label=labels.get(x),
                 parents=[(ws.compact(p), plabels.get(p)) for p in parents[x]],
             )
             for x in found
         ]
-        raise AmbiguousTermError(term, cands)
+        raise AmbiguousTermError(term, cands, tuple("  " + _describe(c) for c in cands))
     return found[0]
 
 
@@ -229,14 +268,31 @@ def _by_lang(values: list[ox.Literal]) -> dict[str, list[str]]:
     return {k: sorted(set(v)) for k, v in sorted(out.items())}
 
 
+def _untagged_language_of(backend: Backend, iri: str, graphs: list[str] | None) -> str:
+    """The language the untagged literals about ``iri`` are read as: the
+    ``untagged_language`` its graphs agree on ("" when they do not, or have none)."""
+    per_graph = _per_graph(backend)
+    if per_graph is None:
+        return ""
+    q = f"SELECT DISTINCT ?g WHERE {{ GRAPH ?g {{ {ox.NamedNode(iri)} ?p ?o }} }}"
+    langs = {per_graph.get(r[0].value, (None, ""))[1] for r in run_query(backend, q, graphs=graphs)}
+    return langs.pop() if len(langs) == 1 else ""
+
+
 def show_entity(backend: Backend, term: str, graphs: list[str] | None = None) -> EntityCard:
-    """The card of the entity a CURIE, IRI or exact label names."""
+    """The card of the entity a CURIE, IRI, exact label or code names."""
     iri = resolve_term(backend, term, graphs)
     res = run_template(backend, "card", {"entity": f"<{iri}>"}, graphs=graphs)
     fields: dict[str, list] = {}
     for fld, value in res.rows:
         fields.setdefault(fld.value, []).append(value)
     lits = {k: [v for v in fields.get(k, []) if isinstance(v, ox.Literal)] for k in fields}
+    untagged = _untagged_language_of(backend, iri, graphs)
+    if untagged:
+        for k in ("label", "alias", "description"):
+            lits[k] = [
+                v if v.language else ox.Literal(v.value, language=untagged) for v in lits.get(k, [])
+            ]
     parents = sorted({v.value for v in fields.get("parent", []) if isinstance(v, ox.NamedNode)})
     plabels = labels_of(backend, parents, graphs)
     ws = backend.ws
@@ -288,6 +344,7 @@ def format_card(card: EntityCard) -> str:
 
 
 _HOW = {"exact": 0, "prefix": 1, "word": 2, "substring": 3}
+_KIND = {"label": 0, "code": 1, "alias": 2}
 
 
 def find_entities(
@@ -297,11 +354,12 @@ def find_entities(
     limit: int = 20,
     graphs: list[str] | None = None,
 ) -> list[Match]:
-    """Entities whose label or alias holds ``text`` (ignoring case), best first.
+    """Entities whose label, alias or code (the profile's ``notation``) holds ``text``
+    (ignoring case), best first.
 
     Ranking: the whole name equal to the text, then names starting with it, then
-    a word starting with it, then anywhere; labels before aliases; shorter names
-    first. Each match carries its parents, so two entities sharing a name can be
+    a word starting with it, then anywhere; labels before codes before aliases;
+    shorter names first. Each match carries its parents, so two entities sharing a name can be
     told apart.
     """
     if not text.strip():
@@ -322,7 +380,7 @@ def find_entities(
             how = "word"
         else:
             how = "substring"
-        key = (_HOW[how], kind.value != "label", len(name.value), name.value, item.value)
+        key = (_HOW[how], _KIND[kind.value], len(name.value), name.value, item.value)
         if item.value not in best or key < best[item.value][0]:
             best[item.value] = (key, name, kind.value, how)
     ranked = sorted(best.items(), key=lambda kv: kv[1][0])[:limit]
@@ -365,7 +423,7 @@ def tree_of(
         raise KgkitError("--depth must be 0 or more")
     root = resolve_term(backend, term, graphs)
     tpl = load_template(backend.ws, "descendants")
-    text, _ = bind_template(tpl, {"root": f"<{root}>"}, backend.ws)
+    text, _ = bind_template(tpl, {"root": f"<{root}>"}, backend.ws, read_graphs(backend, graphs))
     children: dict[str, set[str]] = {}
     for parent, item in run_query(backend, text, graphs=graphs).rows:
         if isinstance(parent, ox.NamedNode) and isinstance(item, ox.NamedNode):

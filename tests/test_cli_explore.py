@@ -159,7 +159,8 @@ def test_show_ambiguous_label_lists_candidates(kg):
     r = kg("show", "no such thing")
     assert r.exit_code == 1
     assert (
-        r.output == "Error: no entity is labelled 'no such thing'; try `kgkit find no such thing`\n"
+        r.output
+        == "Error: no entity is labelled or coded 'no such thing'; try `kgkit find no such thing`\n"
     )
 
 
