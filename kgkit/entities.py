@@ -46,7 +46,7 @@ def _rows_for_items(backend: Backend, select: str, body: str, iris, graphs):
     """Rows of ``SELECT select WHERE { VALUES ?item {...} body }`` over ``iris``.
 
     The items go in VALUES blocks of at most ``CHUNK`` IRIs: a long VALUES list is very
-    slow in pyoxigraph (DESIGN.md, measured facts).
+    slow in pyoxigraph (DEVELOPERS.md, "Measured facts").
     """
     uniq = sorted(set(iris))
     for i in range(0, len(uniq), CHUNK):

@@ -34,8 +34,8 @@ they bind ``?NAME``. ``predicates`` parameters fill the
 ``%{NAME}`` slots as a property-path alternative of IRIs, ``(<a>|<b>)`` (and
 ``%{NAME:list}`` slots as ``<a>, <b>``, for ``IN (...)``): a VALUES
 list of predicates is many times slower in pyoxigraph, and so are
-``substitutions=`` on path queries (see ``DESIGN.md``). No value is ever pasted into
-the text as written.
+``substitutions=`` on path queries (see DEVELOPERS.md, "Measured facts"). No
+value is ever pasted into the text as written.
 
 Graph settings (``graphs:`` in ``kgkit.yaml``): a profile role reads as the union of
 the predicates the queried graphs map it to, and a ``language`` value also takes the

@@ -4,7 +4,7 @@ Selection runs the spec's template runs (:func:`kgkit.templates.run_template`).
 Fetching reads labels, aliases, parents, notations, same-as links and types one
 predicate at a time: on the embedded store a ``quads_for_pattern(None, p, None, g)``
 scan per content graph joined in Python, elsewhere one plain SPARQL query per
-predicate. (A VALUES list of hundreds of IRIs is far slower: see DESIGN.md,
+predicate. (A VALUES list of hundreds of IRIs is far slower: see DEVELOPERS.md,
 "Measured facts".)
 """
 
