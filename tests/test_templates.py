@@ -300,3 +300,45 @@ def test_doctests(module):
 
     result = doctest.testmod(importlib.import_module(module))
     assert result.failed == 0 and result.attempted > 0, module
+
+
+def _graph_ws(tmp_path, section):
+    from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
+
+    w = init_workspace(tmp_path / "gws")
+    path = w.root / CONFIG_NAME
+    path.write_text(path.read_text(encoding="utf-8") + section, encoding="utf-8")
+    return load_workspace(w.root)
+
+
+LANG_TPL = (
+    "#: param lang language\nSELECT ?l WHERE { ?s ?p ?l FILTER(langMatches(lang(?l), ?lang)) }"
+)
+
+
+def test_untagged_value_binds_the_empty_language_range(tmp_path):
+    w = _graph_ws(tmp_path, "")
+    text, values = bind_template(parse_template(LANG_TPL, "t"), {"lang": "@untagged"}, w)
+    assert values["lang"] == ox.Literal("")
+    assert 'VALUES (?lang) { ("") }' in text
+
+
+def test_a_graph_read_in_a_language_adds_its_untagged_row(tmp_path):
+    w = _graph_ws(tmp_path, "graphs:\n  trades:\n    untagged_language: en-gb\n")
+    tpl = parse_template(LANG_TPL, "t")
+    # en-gb lies within the range en: untagged literals of "trades" count as en
+    assert 'VALUES (?lang) { ("en") ("") }' in bind_template(tpl, {"lang": "en"}, w, ["trades"])[0]
+    # not within de, and not when "trades" is not queried
+    assert 'VALUES (?lang) { ("de") }' in bind_template(tpl, {"lang": "de"}, w, ["trades"])[0]
+    assert 'VALUES (?lang) { ("en") }' in bind_template(tpl, {"lang": "en"}, w, ["other"])[0]
+
+
+def test_a_role_reads_every_queried_graphs_own_predicates(tmp_path):
+    w = _graph_ws(
+        tmp_path, "graphs:\n  regions:\n    profile: {label: ['<http://e.example/name>']}\n"
+    )
+    tpl = parse_template("#: param l predicates = @label\nSELECT ?s WHERE { ?s %{l} ?o }", "t")
+    alone = bind_template(tpl, {}, w, ["other"])[0]
+    both = bind_template(tpl, {}, w, ["other", "regions"])[0]
+    assert "<http://e.example/name>" not in alone
+    assert "|<http://e.example/name>)" in both
