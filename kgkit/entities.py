@@ -275,7 +275,9 @@ def _untagged_language_of(backend: Backend, iri: str, graphs: list[str] | None) 
     if per_graph is None:
         return ""
     q = f"SELECT DISTINCT ?g WHERE {{ GRAPH ?g {{ {ox.NamedNode(iri)} ?p ?o }} }}"
-    langs = {per_graph.get(r[0].value, (None, ""))[1] for r in run_query(backend, q, graphs=graphs)}
+    langs = {
+        per_graph.get(r[0].value, (None, ""))[1] for r in run_query(backend, q, graphs=graphs).rows
+    }
     return langs.pop() if len(langs) == 1 else ""
 
 
