@@ -42,6 +42,7 @@
     for (const [lang, list] of Object.entries(t.aliases || {})) {
       for (const text of list) out.push([text, key(text), "alias " + (lang || "untagged")]);
     }
+    if (t.notation) out.push([t.notation, key(t.notation), "code"]);
     out.push([t.id, key(t.id), "id"]);
     names.set(t.id, out);
   }
