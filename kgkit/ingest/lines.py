@@ -45,6 +45,9 @@ __all__ = [
 #: size of the chunks handed to worker processes (cut at the last line end before it)
 CHUNK_BYTES = 1 << 20
 _AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a chunk
+#: deepest nesting of RDF 1.2 triple terms read; pyoxigraph 0.5 recurses per level and
+#: ended the whole process (stack overflow) at 20,000 levels, so deeper lines are refused
+MAX_TRIPLE_TERM_DEPTH = 64
 
 _CAUSE_PREFIX = re.compile(r"^Parser error\b.*?(?:column \d+|columns \d+ and \d+)\s*:\s*")
 _CAUSE_SUFFIX = re.compile(r"\s*\(line \d+\)\s*$")
@@ -219,6 +222,22 @@ class ChunkResult:
     blank_text: bytes = b""
 
 
+def _drop_deep(data: bytes, first: int) -> tuple[bytes, list]:
+    """``data`` with lines nesting triple terms too deep emptied, and their rejects.
+
+    In N-Triples and N-Quads a triple term is only ever an object, so the number of
+    ``<<(`` on a line is its depth (a literal quoting ``<<(`` only counts higher).
+    """
+    lines = split_lines(data)
+    rejects = []
+    for i, line in enumerate(lines):
+        if line.count(b"<<(") > MAX_TRIPLE_TERM_DEPTH:
+            cause = f"triple terms nested more than {MAX_TRIPLE_TERM_DEPTH} deep"
+            rejects.append((first + i, None, cause, decode(line)))
+            lines[i] = b"\n"
+    return (b"".join(lines), rejects) if rejects else (data, [])
+
+
 def _triple_text(q) -> str:
     return f"{term_text(q.subject)} {q.predicate} {term_text(q.object)} .\n"
 
@@ -258,6 +277,8 @@ def process_chunk(
         return res
     fmt = RDF_FORMATS[spec.format]
     sl = spec.slice
+    if b"<<(" in data:
+        data, res.rejects = _drop_deep(data, first)
     if spec.raw_ok and spec.format == "nt" and sl.is_everything and b"_:" not in data:
         res.read = count_statements(data)
         res.raw = data
@@ -323,6 +344,7 @@ def process_chunk(
         res.rejects.append((first + pos + idx, col, cause, decode(seg[idx])))
         pos += idx + 1
         window = _AFTER_ERROR_WINDOW
+    res.rejects.sort(key=lambda r: r[0])
     res.text = "".join(kept_text).encode("utf-8")
     res.kept = len(kept_text) + len(blank)
     if blank:
