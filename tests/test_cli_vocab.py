@@ -29,7 +29,7 @@ def test_compile_prints_a_summary_and_json_last(kgkit, workspace):
     r = kgkit("compile", spec)
     assert r.exit_code == 0
     assert r.output.splitlines() == [
-        "compiled sport: 4 topics, 1 aliases, 0 topics and 2 aliases dropped, "
+        "compiled sport: 4 topics, 1 alias, 0 topics and 2 aliases dropped, "
         "0 cycle links broken, 0 ambiguous keys",
         f"wrote {workspace.vocab_dir / 'sport' / 'build'}",
     ]

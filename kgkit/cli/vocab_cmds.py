@@ -8,6 +8,7 @@ import click
 
 from kgkit.cli.common import echo_json, get_workspace, is_terminal
 from kgkit.vocab.compile import compile_vocabulary
+from kgkit.wording import counted
 
 
 @click.command("compile")
@@ -47,12 +48,15 @@ def compile_command(ctx, spec, strict, as_json, quiet):
     s = result.summary
     if not quiet:
         click.echo(
-            f"compiled {s['name']}: {s['topics']} topics, {s['aliases']} aliases, "
-            f"{s['dropped']} topics and {s['dropped_aliases']} aliases dropped, "
-            f"{s['cycles_broken']} cycle links broken, {s['ambiguous_keys']} ambiguous keys"
+            f"compiled {s['name']}: {counted(s['topics'], 'topic')}, "
+            f"{counted(s['aliases'], 'alias', 'aliases')}, "
+            f"{counted(s['dropped'], 'topic')} and "
+            f"{counted(s['dropped_aliases'], 'alias', 'aliases')} dropped, "
+            f"{counted(s['cycles_broken'], 'cycle link')} broken, "
+            f"{counted(s['ambiguous_keys'], 'ambiguous key')}"
         )
         if s["stale"]:
-            click.echo(f"{s['stale']} stale curation edit(s): see report.txt", err=True)
+            click.echo(f"{counted(s['stale'], 'stale curation edit')}: see report.txt", err=True)
         click.echo(f"wrote {s['output']}")
     if as_json:
         echo_json({**s, "seconds": round(time.perf_counter() - t0, 3)})

@@ -34,6 +34,7 @@ from rdflib.namespace import OWL, RDF, SKOS
 
 from kgkit.errors import LintTargetError, ParseError
 from kgkit.vocab.aliases import match_key  # the lexicon's match key
+from kgkit.wording import counted
 
 __all__ = ["CHECKS", "Check", "Finding", "LintReport", "LintTargetError", "lint_graph", "lint_path"]
 
@@ -142,14 +143,10 @@ class LintReport:
         for f in self.findings:
             lines.append(f"{f.level}: {f.check}: {f.message}")
         lines.append(
-            f"{self.target}: {_count(self.concepts, 'concept')}, "
-            f"{_count(len(self.errors), 'error')}, {_count(len(self.warnings), 'warning')}"
+            f"{self.target}: {counted(self.concepts, 'concept')}, "
+            f"{counted(len(self.errors), 'error')}, {counted(len(self.warnings), 'warning')}"
         )
         return "\n".join(lines) + "\n"
-
-
-def _count(n: int, noun: str) -> str:
-    return f"{n:,} {noun}" + ("" if n == 1 else "s")
 
 
 def _finding(name: str, subjects, message: str) -> Finding:

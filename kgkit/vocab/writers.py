@@ -17,6 +17,7 @@ from pathlib import Path
 
 from kgkit.vocab.folder import LEXICON_HEADER, BuildFileError, read_topics
 from kgkit.vocab.model import TopicRecord
+from kgkit.wording import counted
 
 __all__ = [
     "BuildFileError",
@@ -215,10 +216,12 @@ def report_text(name: str, report: dict) -> str:
     """The short human summary of a compile."""
     c = report["counts"]
     lines = [
-        f"vocabulary {name}: {c['topics']} topics ({c['deprecated']} deprecated), "
-        f"{c['aliases']} aliases, {c['lexicon_rows']} lexicon rows",
+        f"vocabulary {name}: {counted(c['topics'], 'topic')} ({c['deprecated']} deprecated), "
+        f"{counted(c['aliases'], 'alias', 'aliases')}, "
+        f"{counted(c['lexicon_rows'], 'lexicon row')}",
         f"selected {c['selected']}, added by curation {c['added_by_curation']}, "
-        f"dropped {c['dropped_topics']} topics and {c['dropped_aliases']} aliases",
+        f"dropped {counted(c['dropped_topics'], 'topic')} and "
+        f"{counted(c['dropped_aliases'], 'alias', 'aliases')}",
     ]
     for kind, key in (
         ("topics", "dropped_topics_by_reason"),
@@ -227,12 +230,15 @@ def report_text(name: str, report: dict) -> str:
         for reason, n in sorted(c[key].items()):
             lines.append(f"  dropped {kind}, {reason}: {n}")
     lines.append(
-        f"hierarchy: {c['cycles_broken']} cycle links broken, {c['reductions']} redundant "
-        f"parent links removed, {c['reattached']} reattached, {c['new_roots']} new roots, "
-        f"{c['roots']} roots, depth up to {c['max_depth']}"
+        f"hierarchy: {counted(c['cycles_broken'], 'cycle link')} broken, "
+        f"{counted(c['reductions'], 'redundant parent link')} removed, "
+        f"{c['reattached']} reattached, {counted(c['new_roots'], 'new root')}, "
+        f"{counted(c['roots'], 'root')}, depth up to {c['max_depth']}"
     )
     lines.append(f"ambiguous match keys: {c['ambiguous_keys']}; id clashes: {c['id_clashes']}")
-    lines.append(f"curation: {c['curation_applied']} edits applied, {c['curation_stale']} stale")
+    lines.append(
+        f"curation: {counted(c['curation_applied'], 'edit')} applied, {c['curation_stale']} stale"
+    )
     for s in report["curation"]["stale"]:
         lines.append(f"  stale edit {s['edit']} ({s['action']} {s['target']}): {s['reason']}")
     return "\n".join(lines) + "\n"
