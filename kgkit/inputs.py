@@ -48,8 +48,12 @@ __all__ = [
     "MAX_YAML_NODES",
     "YamlDocument",
     "check_number",
+    "ENVIRONMENT_ERRNOS",
     "check_text",
+    "decode_text",
+    "describe_os_error",
     "file_error",
+    "os_error_cause",
     "load_json",
     "load_yaml",
     "one_line",
@@ -130,7 +134,7 @@ def parse_int(
     if isinstance(text, int):
         value = text
         if value.bit_length() > MAX_INT_DIGITS * 4:
-            raise fail(f"an integer of {len(str(value))} digits is too long")
+            raise fail(f"an integer of more than {MAX_INT_DIGITS} digits is too long")
     else:
         s = str(text).strip().replace("_", "")
         if not _INT.fullmatch(s):
@@ -184,6 +188,12 @@ _CAUSES = {
 }
 
 
+#: errno values that mean the environment (permissions, space, a read-only disk), not a bug
+ENVIRONMENT_ERRNOS = frozenset(
+    {errno.EACCES, errno.EPERM, errno.EROFS, errno.ENOSPC, errno.EDQUOT, errno.ENAMETOOLONG}
+)
+
+
 def file_error(
     path: Path | str, exc: OSError, action: str = "read", error: type[KgkitError] = InputError
 ) -> KgkitError:
@@ -192,10 +202,26 @@ def file_error(
     >>> str(file_error("/x/y", PermissionError(13, "Permission denied"), "write"))
     '/x/y: cannot write (permission denied)'
     """
-    cause = _CAUSES.get(exc.errno or 0) or (exc.strerror or type(exc).__name__).lower()
+    cause = os_error_cause(exc)
     if exc.errno == errno.ENOENT and action == "read":
         return error(f"{one_line(str(path))}: no such file")
     return error(f"{one_line(str(path))}: cannot {action} ({cause})")
+
+
+def os_error_cause(exc: OSError) -> str:
+    """A short cause for an ``OSError``: ``permission denied``, ``no space left...``."""
+    return _CAUSES.get(exc.errno or 0) or (exc.strerror or type(exc).__name__).lower()
+
+
+def describe_os_error(exc: OSError) -> str:
+    """One line for an ``OSError`` whose action is not known: ``PATH: cause``.
+
+    >>> describe_os_error(PermissionError(13, "Permission denied", "/x/store.lock"))
+    '/x/store.lock: permission denied'
+    """
+    names = [n for n in (exc.filename, exc.filename2) if n is not None]
+    where = " -> ".join(one_line(os.fsdecode(n)) for n in names) or "a file"
+    return f"{where}: {os_error_cause(exc)}"
 
 
 def _open_regular(path: Path, what: str, error: type[KgkitError], max_bytes: int):
@@ -210,7 +236,7 @@ def _open_regular(path: Path, what: str, error: type[KgkitError], max_bytes: int
     if not stat.S_ISREG(st.st_mode):
         raise error(f"{label}: not a regular file (a device, pipe or socket), not {what}")
     if st.st_size > max_bytes:
-        raise error(f"{label}: {st.st_size} bytes, more than the {max_bytes} read for {what}")
+        raise error(f"{label}: {st.st_size} bytes, more than the {max_bytes} bytes read for {what}")
     try:
         return open(path, "rb")  # noqa: SIM115 - the caller closes it
     except OSError as exc:

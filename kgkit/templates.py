@@ -45,6 +45,7 @@ untagged literals when a queried graph reads its untagged literals in that langu
 
 from __future__ import annotations
 
+import os
 import re
 from collections import deque
 from collections.abc import Iterator
@@ -54,6 +55,7 @@ from importlib import resources
 import pyoxigraph as ox
 
 from kgkit.errors import KgkitError, ParameterError, TemplateError, WorkspaceError
+from kgkit.inputs import check_text, file_error, parse_int, read_text_file
 from kgkit.query import Backend, QueryResult, run_query, tokenize
 from kgkit.workspace import PROFILE_ROLES, Profile, Workspace
 
@@ -272,12 +274,15 @@ def _sources(ws: Workspace | None) -> dict[str, tuple[str, str, bool]]:
     for entry in sorted(_builtin_dir().iterdir(), key=lambda e: e.name):
         if entry.name.endswith(".rq"):
             out[entry.name[:-3]] = (str(entry), entry.read_text("utf-8"), True)
-    if ws is not None and ws.queries_dir.is_dir():
-        for path in sorted(ws.queries_dir.glob("*.rq")):
-            try:
-                text = path.read_text(encoding="utf-8")
-            except UnicodeDecodeError:
-                raise TemplateError(f"{path}: not UTF-8 text") from None
+    if ws is not None and os.path.lexists(ws.queries_dir):
+        # an unreadable folder is an error, never a silent fall-back to the built-ins
+        try:
+            names = sorted(e.name for e in os.scandir(ws.queries_dir) if e.name.endswith(".rq"))
+        except OSError as exc:
+            raise file_error(ws.queries_dir, exc, "list", TemplateError) from None
+        for fname in names:
+            path = ws.queries_dir / fname
+            text = read_text_file(path, "a template", TemplateError)
             out[path.stem] = (str(path), text, False)
     return out
 
@@ -311,7 +316,7 @@ def parse_value(
     ``@role`` values of ``predicates`` read ``profile`` (default: the workspace's).
     """
     what = f"parameter {param.name!r} ({param.kind})"
-    raw = raw.strip()
+    raw = check_text(raw, what, ParameterError).strip()
     if param.choices and raw not in param.choices:
         raise ParameterError(f"{what}: {raw!r} is not one of {', '.join(param.choices)}")
     if param.kind == "iri":
@@ -332,7 +337,7 @@ def parse_value(
     if param.kind == "integer":
         if not re.fullmatch(r"[+-]?[0-9]+", raw):
             raise ParameterError(f"{what}: {raw!r} is not an integer")
-        return ox.Literal(str(int(raw)), datatype=XSD_INTEGER)
+        return ox.Literal(str(parse_int(raw, what, error=ParameterError)), datatype=XSD_INTEGER)
     # predicates: a comma-separated list of CURIEs / IRIs, or @role
     out: list[str] = []
     for part in (p.strip() for p in raw.split(",")):
@@ -531,7 +536,8 @@ def run_template(
     try:
         res = run_query(backend, text, graphs=graphs, allow_service=allow_service)
     except KgkitError as exc:
-        raise type(exc)(f"template {tpl.path}: {exc}") from None
+        exc.args = (f"template {tpl.path}: {exc}",)  # same class, details and parameters
+        raise
     if tpl.walk is None:
         return res
     w = tpl.walk

@@ -19,9 +19,8 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import yaml
-
-from kgkit.errors import WorkspaceError
+from kgkit.errors import WorkspaceError, one_line
+from kgkit.inputs import read_yaml
 
 __all__ = [
     "CONFIG_NAME",
@@ -65,6 +64,8 @@ GRAPH_KEYS = ("profile", "untagged_language")
 _LANG_TAG = r"[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*"
 _PREFIX_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_.-]*$|^$")
 _CURIE = re.compile(r"^([A-Za-z][A-Za-z0-9_.-]*)?:(\S*)$")
+# what an IRI never holds (RDF 1.1 N-Triples, IRIREF): controls, space, <>"{}|^`\
+_NOT_IN_IRI = re.compile(r'[\x00-\x20<>"{}|^`\\]')
 
 CONFIG_TEMPLATE = """\
 # kgkit workspace settings. Every command run inside this folder (or below it)
@@ -166,11 +167,16 @@ def _expand(term: str, prefixes: dict[str, str], where: str) -> str:
     term = term.strip()
     if term.startswith("<") and term.endswith(">"):
         iri = term[1:-1]
-        if not iri or any(c in iri for c in ' <>"{}|^`\\'):
+        if not iri or _NOT_IN_IRI.search(iri):
             raise WorkspaceError(f"{where}: {term!r} is not a valid IRI")
         return iri
     m = _CURIE.match(term)
     if m and (m.group(1) or "") in prefixes:
+        bad = _NOT_IN_IRI.search(m.group(2))
+        if bad:
+            raise WorkspaceError(
+                f"{where}: {term!r}: the character {bad.group()!r} cannot be part of an IRI"
+            )
         return prefixes[m.group(1) or ""] + m.group(2)
     if re.match(r"^[a-zA-Z][a-zA-Z0-9+.-]*:[^\s<>\"]+$", term) and (
         "/" in term or term.startswith("urn:")
@@ -369,17 +375,11 @@ def load_workspace(root: Path | str) -> Workspace:
     """Read the workspace whose ``kgkit.yaml`` is in ``root``."""
     root = Path(root)
     path = root / CONFIG_NAME
-    if not path.is_file():
-        raise WorkspaceError(f"{root}: no {CONFIG_NAME} here; run `kgkit init` to make one")
-    try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f"{path}:{mark.line + 1}" if mark else str(path)
-        problem = getattr(exc, "problem", None) or "malformed YAML"
-        raise WorkspaceError(f"{where}: {problem}") from None
-    except UnicodeDecodeError:
-        raise WorkspaceError(f"{path}: not UTF-8 text") from None
+    if not os.path.lexists(path):
+        raise WorkspaceError(
+            f"{one_line(str(root))}: no {CONFIG_NAME} here; run `kgkit init` to make one"
+        )
+    data = read_yaml(path, "the workspace settings", WorkspaceError).data
     return Workspace(root.resolve(), _parse_config(data, path))
 
 

@@ -11,14 +11,15 @@ from __future__ import annotations
 
 import functools
 import importlib
+import signal
 import sys
 
 import click
 
 import kgkit
 from kgkit.cli.common import flag_message
-from kgkit.errors import ArgumentError, KgkitError, error_lines
-from kgkit.inputs import check_text
+from kgkit.errors import ArgumentError, InputError, KgkitError, error_lines
+from kgkit.inputs import ENVIRONMENT_ERRNOS, check_text, describe_os_error
 
 __all__ = ["UserError", "cli", "main"]
 
@@ -46,6 +47,11 @@ class _Group(click.Group):
                 raise
             cmd = self.get_command(ctx, ctx.invoked_subcommand) if ctx.invoked_subcommand else None
             raise UserError(exc, [*(cmd.params if cmd else ()), *self.params]) from None
+        except OSError as exc:
+            # permissions, a full or read-only disk: the environment, not a bug
+            if (ctx.obj or {}).get("debug") or exc.errno not in ENVIRONMENT_ERRNOS:
+                raise
+            raise UserError(InputError(describe_os_error(exc)), []) from None
 
 
 class UserError(click.ClickException):
@@ -124,6 +130,8 @@ COMMAND_MODULES = {
     "init": "workspace_cmds",
     "import": "ingest_cmds",
     "graphs": "ingest_cmds",
+    "drop": "store_cmds",
+    "reclaim": "store_cmds",
     "slice": "ingest_cmds",
     "query": "explore_cmds",
     "templates": "explore_cmds",
@@ -139,12 +147,21 @@ COMMAND_MODULES = {
     "lint": "release_cmds",
     "review": "review_cmds",
     "probe": "review_cmds",
+    "triage": "worklist_cmds",
     "demo": "demo_cmds",
 }
 
 
+def _terminate(signum, frame) -> None:
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)  # a second SIGTERM ends it at once
+    raise KeyboardInterrupt
+
+
 def main() -> None:
     """Entry point of the ``kgkit`` console script."""
+    # SIGTERM ends a command the way Ctrl-C does: the same clean-up runs (an import
+    # leaves the store as it was, temporary files go), instead of the process vanishing
+    signal.signal(signal.SIGTERM, _terminate)
     try:
         cli(prog_name="kgkit")
     except BrokenPipeError:  # output piped into `head` and the like

@@ -14,17 +14,16 @@ dropped silently (``strict`` makes it an error).
 
 from __future__ import annotations
 
+import os
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import yaml
-
 from kgkit.errors import SpecError
+from kgkit.inputs import read_yaml
 from kgkit.vocab.aliases import Settlement, match_key
 from kgkit.vocab.model import Topic
-from kgkit.vocab.spec import _key_lines
 
 __all__ = ["ACTIONS", "CurationResult", "Edit", "apply_curation", "load_curation"]
 
@@ -69,18 +68,10 @@ class Edit:
 def load_curation(path: Path) -> list[Edit]:
     """Read and validate a curation file; a missing file means no edits."""
     path = Path(path)
-    if not path.exists():
+    if not os.path.lexists(path):
         return []
-    try:
-        text = path.read_text(encoding="utf-8")
-        data = yaml.safe_load(text)
-    except UnicodeDecodeError:
-        raise SpecError(f"{path}: not UTF-8 text") from None
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f"{path}:{mark.line + 1}" if mark else str(path)
-        raise SpecError(f"{where}: {getattr(exc, 'problem', None) or 'malformed YAML'}") from None
-    lines = _key_lines(text)
+    doc = read_yaml(path, "a curation file", SpecError)
+    data, lines = doc.data, doc.lines
     if data is None:
         return []
 

@@ -58,7 +58,7 @@ def parse_topics(lines: Iterable[str], name: str = "topics.jsonl") -> dict[str, 
     'A'
     >>> parse_topics(['{"id": "a"}', '{"id": "a"}'], "t.jsonl")
     Traceback (most recent call last):
-    kgkit.vocab.folder.BuildFileError: t.jsonl:2: topic id 'a' appears twice
+    kgkit.errors.BuildFileError: t.jsonl:2: topic id 'a' appears twice
     """
     out: dict[str, TopicRecord] = {}
     loads, make = json.loads, TopicRecord.from_json

@@ -1,0 +1,383 @@
+"""Bad input that reaches kgkit from outside (files, arguments, YAML, JSON) ends in one
+line naming the file, line and cause: never a traceback (issue 15, items 9 and 12).
+
+Each test is named after the failure it triggers; the rows of a parametrised test are
+the inputs that used to end in a traceback or pass silently.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from kgkit.cli import cli
+from kgkit.errors import InputError, ParameterError, SpecError, TemplateError, WorkspaceError
+from kgkit.inputs import (
+    MAX_INT_DIGITS,
+    check_number,
+    load_json,
+    load_yaml,
+    parse_int,
+    read_text_file,
+    read_yaml,
+)
+from kgkit.templates import list_templates
+from kgkit.vocab.curation import load_curation
+from kgkit.vocab.spec import load_spec
+from kgkit.workspace import load_workspace
+
+HUGE = "9" * 5000  # Python refuses to convert integers of over 4,300 digits
+DEEP_BLOCK = "a:\n  " + "- " * 20_000 + "x\n"  # block lists nested 20,000 deep
+DEEP_FLOW = "a: " + "[" * 20_000 + "]" * 20_000 + "\n"
+# nine levels of nine aliases: 9**9 (387 million) strings once expanded
+ALIAS_BOMB = "a0: &a0 [x, x, x, x, x, x, x, x, x]\n" + "".join(
+    f"a{i}: &a{i} [{', '.join([f'*a{i - 1}'] * 9)}]\n" for i in range(1, 10)
+)
+
+SPEC = """\
+name: sport
+namespace: http://example.org/vocab/
+select:
+  - template: descendants
+    params: {root: "<http://example.org/sport>"}
+"""
+
+
+def one_error_line(result) -> str:
+    """The output of a failed command: exactly one line, starting with Error:."""
+    lines = result.output.splitlines()
+    assert result.exception is None or isinstance(result.exception, SystemExit), result.output
+    assert len(lines) == 1 and lines[0].startswith("Error: "), result.output
+    return lines[0]
+
+
+# --- YAML: nesting, aliases, duplicate keys, numbers -----------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        pytest.param(DEEP_BLOCK, "nested more than 64 levels deep", id="block-nested-20000"),
+        pytest.param(DEEP_FLOW, "nesting", id="flow-nested-20000"),
+        pytest.param(ALIAS_BOMB, "once its aliases are expanded", id="alias-bomb"),
+        pytest.param("a: 1\nb: 2\na: 3\n", "key 'a' given twice (first on line 1)", id="dup-key"),
+        pytest.param(f"a: {HUGE}\n", "an integer of 5000 digits is too long", id="huge-int"),
+        pytest.param("a: .nan\n", "'.nan' is not a finite number", id="nan"),
+        pytest.param("a: -.inf\n", "'-.inf' is not a finite number", id="inf"),
+        pytest.param("a: 1.0e+999\n", "'1.0e+999' is not a finite number", id="float-overflow"),
+        pytest.param("a: 1\n---\nb: 2\n", "more than one YAML document", id="two-documents"),
+    ],
+)
+def test_yaml_beyond_limits_is_one_line(text, cause):
+    start = time.monotonic()
+    with pytest.raises(InputError) as err:
+        load_yaml(text, "f.yaml")
+    assert time.monotonic() - start < 5  # refused at once, never expanded
+    msg = str(err.value)
+    assert msg.startswith("f.yaml") and cause in msg and "\n" not in msg
+
+
+def test_yaml_key_lines_and_shared_anchor_load():
+    doc = load_yaml("a:\n  b: &x [1, 2]\n  c: *x\nl:\n  - k: v\n", "f.yaml")
+    assert doc.data == {"a": {"b": [1, 2], "c": [1, 2]}, "l": [{"k": "v"}]}
+    assert doc.lines["a.c"] == 3 and doc.lines["l[0].k"] == 5
+    assert doc.line_of("l[0].k.deeper") == 5
+
+
+# --- numbers and text --------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("text", [HUGE, "-" + HUGE, "1" * (MAX_INT_DIGITS + 1), "x1", ""])
+def test_bad_integer_text_is_one_line(text):
+    with pytest.raises(ParameterError) as err:
+        parse_int(text, "n", error=ParameterError)
+    assert str(err.value).startswith("n: ") and len(str(err.value)) < 200
+
+
+@pytest.mark.parametrize(
+    "value",
+    [float("nan"), float("inf"), True, "1", 10**5000],
+    ids=["nan", "inf", "bool", "text", "huge-int"],
+)
+def test_number_that_is_not_finite_is_refused(value):
+    with pytest.raises(InputError):
+        check_number(value, "min", InputError)
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        ("[" * 100_000 + "]" * 100_000, "nested more than 200 levels deep"),
+        ('{"n": ' + HUGE + "}", "an integer of 5000 digits is too long"),
+        ('{"n": NaN}', "NaN is not a JSON number"),
+        ('{"n": Infinity}', "Infinity is not a JSON number"),
+        ('{"n": 1', "f.json:1:8:"),
+    ],
+)
+def test_json_beyond_limits_is_one_line(text, cause):
+    with pytest.raises(InputError) as err:
+        load_json(text, "f.json")
+    assert cause in str(err.value) and "\n" not in str(err.value)
+
+
+# --- files -------------------------------------------------------------------------------
+
+
+def test_file_that_cannot_be_read_says_why(tmp_path):
+    (tmp_path / "bad.yaml").write_bytes(b"a: 1\nb: caf\xe9\n")
+    cases = {
+        tmp_path / "missing.yaml": "missing.yaml: no such file",
+        tmp_path: "is a folder, not a text file",
+        Path("/dev/zero"): "/dev/zero: not a regular file",
+        tmp_path / "bad.yaml": "bad.yaml:2:7: not UTF-8 text (byte \\xe9)",
+    }
+    for path, cause in cases.items():
+        with pytest.raises(InputError) as err:
+            read_text_file(path)
+        assert cause in str(err.value)
+    with pytest.raises(InputError, match="more than the 10 bytes"):
+        read_text_file(tmp_path / "bad.yaml", max_bytes=10)
+    (tmp_path / "bom.yaml").write_bytes(b"\xef\xbb\xbfa: 1\n")
+    assert read_yaml(tmp_path / "bom.yaml").data == {"a": 1}
+
+
+# --- kgkit.yaml ----------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        (DEEP_BLOCK, "nested more than 64 levels deep"),
+        (f"store: x\nlanguages: [en]\nendpoint: {HUGE}\n", "5000 digits is too long"),
+        ("store: a\nstore: b\n", "key 'store' given twice"),
+        ("profile:\n  label: [skos:prefLabel>]\n", "the character '>' cannot be part of an IRI"),
+        ('profile:\n  label: ["skos:pref Label"]\n', "neither an IRI"),
+    ],
+    ids=["nested-20000", "huge-int", "dup-key", "predicate-with-bracket", "predicate-with-space"],
+)
+def test_bad_workspace_file_is_one_line(tmp_path, runner, text, cause):
+    (tmp_path / "kgkit.yaml").write_text(text, encoding="utf-8")
+    with pytest.raises(WorkspaceError) as err:
+        load_workspace(tmp_path)
+    assert cause in str(err.value)
+    r = runner.invoke(cli, ["--workspace", str(tmp_path), "templates"])
+    assert r.exit_code == 1 and cause in one_error_line(r)
+
+
+def test_profile_predicate_with_bracket_is_refused_at_load_not_at_find(workspace, runner):
+    path = workspace.root / "kgkit.yaml"
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text.replace("label: [skos:prefLabel,", "label: [skos:prefLabel>,"))
+    r = runner.invoke(cli, ["--workspace", str(workspace.root), "find", "x"])
+    line = one_error_line(r)
+    assert "kgkit.yaml: key 'profile.label'" in line and "'>'" in line
+
+
+# --- specs and curation files --------------------------------------------------------------
+
+
+def write_spec(ws, extra: str = "", text: str = SPEC) -> Path:
+    path = ws.vocab_dir / "sport.yaml"
+    path.write_text(text + extra, encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize(
+    "extra, cause",
+    [
+        ("prune: {max_depth: " + HUGE + "}\n", "sport.yaml:6: an integer of 5000 digits"),
+        ("prune: {max_depth: 10000000000000}\n", "must be an integer <= 1000000000000"),
+        ("prune: {max_depth: .nan}\n", "sport.yaml:6: '.nan' is not a finite number"),
+        (
+            "prune:\n  min_popularity: {template: descendants, params: {root: x}, min: .inf}\n",
+            "sport.yaml:7: '.inf' is not a finite number",
+        ),
+        ("name: other\n", "sport.yaml:6: key 'name' given twice (first on line 1)"),
+        ("aliases:\n" + ALIAS_BOMB.replace("\na", "\n  a").replace("a0", "  a0", 1), "expanded"),
+        ("prune:\n" + DEEP_BLOCK.replace("\n", "\n  ", 2000), "nested more than 64 levels deep"),
+        ("curation: .\n", "sport.yaml:6: key 'curation':"),
+        ("curation: /dev/zero\n", "sport.yaml:6: key 'curation': /dev/zero is not a regular file"),
+        ("curation: nowhere.yaml\n", "sport.yaml:6: key 'curation': no such curation file"),
+    ],
+    ids=[
+        "huge-int",
+        "int-beyond-rule-bound",
+        "nan",
+        "inf",
+        "dup-key",
+        "alias-bomb",
+        "nested-20000",
+        "curation-is-a-folder",
+        "curation-is-a-device",
+        "curation-missing",
+    ],
+)
+def test_bad_spec_is_one_line_naming_its_line(workspace, extra, cause):
+    path = write_spec(workspace, extra)
+    start = time.monotonic()
+    with pytest.raises(SpecError) as err:
+        load_spec(workspace, path)
+    assert time.monotonic() - start < 5
+    assert cause in str(err.value) and "\n" not in str(err.value)
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        (DEEP_BLOCK, "nested more than 64 levels deep"),
+        ("edits:\n" + ALIAS_BOMB.replace("a0:", "  - a0:", 1), "expanded"),
+        ("edits: []\nedits: []\n", "c.yaml:2: key 'edits' given twice"),
+        (
+            "edits:\n  - add_alias: {topic: a, alias: b, alias: c}\n",
+            "c.yaml:2: key 'alias' given twice",
+        ),
+    ],
+    ids=["nested-20000", "alias-bomb", "dup-key", "dup-field"],
+)
+def test_bad_curation_file_is_one_line(tmp_path, text, cause):
+    path = tmp_path / "c.yaml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(SpecError) as err:
+        load_curation(path)
+    assert cause in str(err.value) and "\n" not in str(err.value)
+
+
+def test_curation_file_that_is_a_folder_or_device_is_refused(tmp_path):
+    with pytest.raises(SpecError, match="is a folder"):
+        load_curation(tmp_path)
+    with pytest.raises(SpecError, match="not a regular file"):
+        load_curation(Path("/dev/zero"))
+
+
+# --- command-line arguments ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "args, name",
+    [
+        (["query", "SELECT * WHERE { ?s ?p 'caf\udce9' }"], "'[SPARQL]'"),
+        (["run", "descendants", "-p", "root=\udcff"], "'--param'"),
+        (["show", "\udcff"], "'TERM'"),
+        (["find", "caf\udce9"], "'TEXT'"),
+        (["tree", "\udcff"], "'TERM'"),
+        (["probe", ".", "caf\udce9"], "'[TEXT]'"),
+    ],
+    ids=["query", "run-p", "show", "find", "tree", "probe"],
+)
+def test_argument_that_is_not_utf8_is_a_usage_error(kgkit, args, name):
+    r = kgkit(*args)
+    assert r.exit_code == 2, r.output
+    last = r.output.splitlines()[-1]
+    assert last.startswith(f"Error: Invalid value for {name}")
+    assert "not UTF-8 text (byte \\x" in last
+
+
+def test_integer_parameter_over_4300_digits_is_one_line(kgkit):
+    r = kgkit("run", "descendants", "-p", "root=<http://example.org/a>", "-p", f"max_depth={HUGE}")
+    assert r.exit_code == 1
+    assert "max_depth' (integer): an integer of 5000 digits is too long" in one_error_line(r)
+
+
+def test_control_characters_in_a_message_are_shown_escaped(kgkit, workspace):
+    bad = workspace.root / "sp\x85ec\u2028x\x0b.yaml"
+    bad.write_text("name: [\n", encoding="utf-8")
+    r = kgkit("compile", str(bad))
+    line = one_error_line(r)
+    assert "sp\\x85ec\\u2028x\\x0b.yaml" in line
+
+
+def test_library_parameter_names_become_flags_on_the_command_line(kgkit):
+    r = kgkit("query", "DELETE WHERE { ?s ?p ?o }")
+    assert one_error_line(r).endswith("refused (give --allow-update to run it)")
+    r = kgkit("query", "CONSTRUCT WHERE { ?s ?p ?o }", "--format", "json")
+    assert "--format json is for SELECT and ASK results" in one_error_line(r)
+    assert "--format nt or --format ttl" in r.output
+
+
+def test_debug_reraises_the_error(runner, tmp_path):
+    (tmp_path / "kgkit.yaml").write_text("a: 1\na: 2\n", encoding="utf-8")
+    r = runner.invoke(cli, ["--workspace", str(tmp_path), "--debug", "templates"])
+    assert isinstance(r.exception, WorkspaceError)
+
+
+# --- templates folder ------------------------------------------------------------------------
+
+
+def test_template_that_is_not_utf8_names_its_line(workspace):
+    (workspace.queries_dir / "x.rq").write_bytes(b"#: about x\nSELECT * WHERE { ?s ?p '\xff' }\n")
+    with pytest.raises(TemplateError, match=r"x.rq:2:\d+: not UTF-8 text"):
+        list_templates(workspace)
+
+
+# --- permissions (as an unprivileged user when the tests run as root) -------------------------
+
+
+def _run_unprivileged(args: list[str], cwd: Path) -> subprocess.CompletedProcess:
+    """Run kgkit in a child process that permission bits apply to (as root: without the
+    capabilities that override them)."""
+    prefix = []
+    if os.geteuid() == 0:
+        setpriv = shutil.which("setpriv")
+        if setpriv is None:
+            pytest.skip("running as root and setpriv (util-linux) is not installed")
+        prefix = [setpriv, "--bounding-set", "-dac_override,-dac_read_search"]
+    return subprocess.run(
+        [*prefix, sys.executable, "-m", "kgkit", *args],
+        cwd=cwd,
+        capture_output=True,
+        text=True,
+        errors="replace",
+        timeout=60,
+    )
+
+
+@pytest.fixture
+def open_workspace(workspace):
+    """A workspace with a spec, a curation file and a template of its own."""
+    write_spec(workspace)
+    (workspace.vocab_dir / "sport.curation.yaml").write_text("edits: []\n", encoding="utf-8")
+    (workspace.queries_dir / "mine.rq").write_text(
+        "#: about mine\nSELECT ?s WHERE { ?s ?p ?o }\n", encoding="utf-8"
+    )
+    yield workspace
+    for dirpath, _, _ in os.walk(workspace.root):
+        os.chmod(dirpath, 0o755)
+
+
+@pytest.mark.parametrize(
+    "target, args, cause",
+    [
+        ("kgkit.yaml", ["templates"], "kgkit.yaml: cannot read (permission denied)"),
+        ("queries/mine.rq", ["templates"], "mine.rq: cannot read (permission denied)"),
+        ("queries", ["templates"], "queries: cannot list (permission denied)"),
+        (
+            "vocab/sport.curation.yaml",
+            ["compile", "vocab/sport.yaml"],
+            "sport.curation.yaml: cannot read (permission denied)",
+        ),
+    ],
+    ids=["workspace-file", "template", "queries-folder", "curation-file"],
+)
+def test_unreadable_input_is_one_line(open_workspace, target, args, cause):
+    path = open_workspace.root / target
+    os.chmod(path, 0)
+    r = _run_unprivileged(args, open_workspace.root)
+    assert r.returncode == 1, r.stderr
+    assert r.stderr.splitlines() == [f"Error: {path if '/' in cause else ''}{cause}"] or (
+        len(r.stderr.splitlines()) == 1 and cause in r.stderr
+    ), r.stderr
+
+
+def test_unwritable_store_lock_is_one_line(open_workspace):
+    lock = open_workspace.store_path.with_name("store.lock")
+    lock.unlink(missing_ok=True)
+    os.chmod(lock.parent, 0o555)
+    r = _run_unprivileged(["query", "ASK { ?s ?p ?o }"], open_workspace.root)
+    assert r.returncode == 1
+    assert r.stderr.splitlines() == [f"Error: {lock}: permission denied"], r.stderr
