@@ -15,7 +15,7 @@ from collections.abc import Callable, Iterable, Mapping
 from json.encoder import encode_basestring as _js
 from pathlib import Path
 
-from kgkit.vocab.folder import LEXICON_HEADER, BuildFileError, read_topics
+from kgkit.vocab.folder import LEXICON_HEADER, LEXICON_SOURCE, BuildFileError, read_topics
 from kgkit.vocab.model import TopicRecord
 from kgkit.wording import counted
 
@@ -202,9 +202,15 @@ def skos_text(
 
 
 def lexicon_text(rows: Iterable[tuple]) -> str:
-    """TSV: header, then (alias, match key, topic, language, kind, shared_by) rows."""
+    """TSV: header, then (alias, match key, topic, language, kind, shared_by) rows, and a
+    ``source`` column when some row was made from another name (an inflected form)."""
+    rows = rows if isinstance(rows, list | tuple) else list(rows)
+    if any(len(r) > 6 and r[6] for r in rows):
+        lines = ["\t".join((*LEXICON_HEADER, LEXICON_SOURCE))]
+        lines.extend(["\t".join(map(str, r[:7])) for r in rows])
+        return "\n".join(lines) + "\n"
     lines = ["\t".join(LEXICON_HEADER)]
-    lines.extend([f"{a}\t{k}\t{t}\t{lg}\t{kind}\t{n}" for a, k, t, lg, kind, n in rows])
+    lines.extend([f"{a}\t{k}\t{t}\t{lg}\t{kind}\t{n}" for a, k, t, lg, kind, n, *_ in rows])
     return "\n".join(lines) + "\n"
 
 
@@ -236,6 +242,12 @@ def report_text(name: str, report: dict) -> str:
         f"{counted(c['roots'], 'root')}, depth up to {c['max_depth']}"
     )
     lines.append(f"ambiguous match keys: {c['ambiguous_keys']}; id clashes: {c['id_clashes']}")
+    if c.get("inflected_forms"):
+        lines.append(f"inflected forms in the lexicon: {c['inflected_forms']}")
+    if "common_words" in c:
+        lines.append(
+            f"common words (names at or above the spec's Zipf frequency): {c['common_words']}"
+        )
     lines.append(
         f"curation: {counted(c['curation_applied'], 'edit')} applied, {c['curation_stale']} stale"
     )
