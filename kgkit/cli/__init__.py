@@ -148,7 +148,6 @@ COMMAND_MODULES = {
     "review": "review_cmds",
     "probe": "review_cmds",
     "triage": "worklist_cmds",
-    "triage": "worklist_cmds",
     "demo": "demo_cmds",
 }
 
