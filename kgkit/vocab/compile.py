@@ -1,10 +1,26 @@
-"""``compile_vocabulary``: from a spec and the store to the files in ``vocab/<name>/build/``.
+"""``compile_vocabulary``: from a spec and the store to a :class:`~kgkit.vocab.model.Vocabulary`
+and the files in ``vocab/<name>/build/``.
 
-The steps, in order: validate the spec and the curation file; select topics
-(template runs, ``include``); fetch their labels, aliases and parent links;
-give each a stable id; apply the curation overlay; exclude subtrees; choose
-preferred labels; prune; repair the hierarchy (restrict, reattach, break cycles,
-reduce, depth); clean aliases and settle ambiguous match keys; write the files.
+The stages, in order, each a plain function of its inputs:
+
+1. **select** (:func:`kgkit.vocab.select.select_topics`): template runs and ``include``;
+2. **fetch** (:func:`kgkit.vocab.select.fetch_entities`): labels, aliases, parent links,
+   notations and same-as links, one plain query per predicate and graph;
+3. **ids** (:func:`identify_topics`): a stable id and a working topic per entity;
+4. **curation** (:func:`curate_topics`): the curation overlay;
+5. **exclusions** (:func:`exclude_topics`): the spec's and the curation's, with subtrees;
+6. **labels** (:func:`choose_preferred_labels`): one preferred label per language;
+7. **prune** (:func:`prune_stage`): the spec's pruning rules;
+8. **hierarchy** (:func:`kgkit.vocab.hierarchy.repair_hierarchy`): restrict, reattach,
+   break cycles, reduce, depth;
+9. **aliases** (:func:`collect_aliases`): cleaning, common words, settled names,
+   ambiguity, inflected forms;
+10. **records** (:func:`make_records`), **lexicon** (:func:`make_lexicon`) and
+    **report** (:func:`make_report`): the parts of the vocabulary value.
+
+:func:`build_vocabulary` runs stages 3-10 on fetched data (no store needed);
+:func:`compile_vocabulary` runs them all and then writes the folder
+(:func:`kgkit.vocab.folder.write_vocabulary`), a separate step.
 """
 
 from __future__ import annotations
@@ -12,21 +28,27 @@ from __future__ import annotations
 import contextlib
 import gc
 from collections import Counter
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import NamedTuple
 
 from kgkit.errors import KgkitError, SpecError
 from kgkit.vocab.aliases import (
+    INFLECTED,
+    add_inflected_forms,
     choose_labels,
     clean_aliases,
+    drop_common_aliases,
     key_cache,
     lang_matches,
+    merge_ambiguous,
     resolve_ambiguity,
+    settle_names,
 )
-from kgkit.vocab.curation import Edit, apply_curation, load_curation
+from kgkit.vocab.curation import CurationResult, Edit, apply_curation, load_curation
 from kgkit.vocab.folder import vocabulary_files, write_vocabulary
-from kgkit.vocab.hierarchy import repair_hierarchy, restrict_to, subtree
+from kgkit.vocab.hierarchy import Hierarchy, repair_hierarchy, restrict_to, subtree
 from kgkit.vocab.model import (
     ACTIVE,
     DEPRECATED,
@@ -40,14 +62,26 @@ from kgkit.vocab.model import (
 )
 from kgkit.vocab.prune import prune_topics
 from kgkit.vocab.select import Fetched, fetch_entities, run_popularity, select_topics
-from kgkit.vocab.spec import VocabSpec, load_spec
+from kgkit.vocab.spec import LanguageRules, VocabSpec, load_spec
 from kgkit.workspace import Workspace
 
 __all__ = [
     "CompileResult",
+    "Identified",
+    "Names",
     "build_vocabulary",
+    "choose_preferred_labels",
+    "collect_aliases",
     "compile_vocabulary",
+    "curate_topics",
     "display_languages",
+    "exclude_topics",
+    "identify_topics",
+    "make_lexicon",
+    "make_records",
+    "make_report",
+    "merge_replacements",
+    "prune_stage",
     "scheme_of",
 ]
 
@@ -94,23 +128,25 @@ def _resolver(ws: Workspace, topics: dict[str, Topic], ids: dict[str, str]):
     return resolve
 
 
-def build_vocabulary(
-    ws: Workspace,
-    spec: VocabSpec,
-    selected: list[str],
-    fetched: Fetched,
-    edits: list[Edit] = (),
-    popularity: dict[str, float] | None = None,
-    strict: bool = False,
-    progress: Callable[[str], None] | None = None,
-) -> Vocabulary:
-    """Compile in memory from already fetched data (no store needed)."""
+class Identified(NamedTuple):
+    """The ``ids`` stage's result: the working topics, their ids, id clashes, parent links."""
 
-    def step(text: str) -> None:
-        if progress:
-            progress(text)
+    topics: dict[str, Topic]  # topic id -> working record
+    ids: dict[str, str]  # source IRI -> topic id
+    clashes: list[dict]
+    graph_parents: dict[str, list[str]]  # node -> parents, topic ids where there is one
 
-    step("giving ids")
+
+def identify_topics(selected: list[str], fetched: Fetched) -> Identified:
+    """Stage ``ids``: give each selected entity a stable topic id and a working
+    :class:`~kgkit.vocab.model.Topic`; express the fetched parent links in topic ids
+    (entities outside the selection keep their IRI as node name).
+
+    >>> f = Fetched(labels={"http://g/a": [("en", "A", 0)]}, parents={"http://g/a": ["http://g/x"]})
+    >>> ident = identify_topics(["http://g/a"], f)
+    >>> sorted(ident.topics), ident.graph_parents
+    (['a'], {'a': ['http://g/x']})
+    """
     ids, clashes = assign_ids(selected)
     topics: dict[str, Topic] = {}
     f = fetched
@@ -125,10 +161,6 @@ def build_vocabulary(
             notations=set(f.notations.get(src, ())),
             same_as=set(f.same_as.get(src, ())),
         )
-
-    def node(iri: str) -> str:
-        return ids.get(iri, iri)
-
     get = ids.get
     graph_parents: dict[str, list[str]] = {}
     for s, ps in f.parents.items():
@@ -136,107 +168,174 @@ def build_vocabulary(
             graph_parents[get(s, s)] = [get(ps[0], ps[0])]
         else:
             graph_parents[get(s, s)] = sorted({get(p, p) for p in ps})
+    return Identified(topics, ids, clashes, graph_parents)
 
-    step("applying the curation")
+
+def _stale_error(spec: VocabSpec, edits, stale: list[dict], total: int | None = None):
+    s = stale[0]
+    where = next((e.line for e in edits if e.index == s["edit"]), None)
+    more = f" ({total} stale edit(s) in all)" if total is not None else ""
+    return SpecError(
+        f"{spec.curation}{':' + str(where) if where else ''}: edit {s['edit']} "
+        f"({s['action']} {s['target']}) is stale: {s['reason']}{more}"
+    )
+
+
+def curate_topics(
+    ws: Workspace, spec: VocabSpec, edits: list[Edit], ident: Identified, strict: bool = False
+) -> CurationResult:
+    """Stage ``curation``: apply the curation overlay to the working topics and parent
+    links (in place). With ``strict``, a stale edit raises :class:`SpecError`."""
     lang_rules = spec.languages
     curated = apply_curation(
         list(edits),
-        topics,
-        graph_parents,
-        _resolver(ws, topics, ids),
+        ident.topics,
+        ident.graph_parents,
+        _resolver(ws, ident.topics, ident.ids),
         lambda t: choose_labels(t.labels, lang_rules, t.label_override)[0],
     )
     if strict and curated.stale:
-        s = curated.stale[0]
-        where = next((e.line for e in edits if e.index == s["edit"]), None)
-        raise SpecError(
-            f"{spec.curation}{':' + str(where) if where else ''}: edit {s['edit']} "
-            f"({s['action']} {s['target']}) is stale: {s['reason']} "
-            f"({len(curated.stale)} stale edit(s) in all)"
-        )
+        raise _stale_error(spec, edits, curated.stale, len(curated.stale))
+    return curated
 
+
+def exclude_topics(
+    spec_targets: Iterable[str],
+    curated_targets: Iterable[tuple[str, bool, int]],
+    graph_parents: Mapping[str, list[str]],
+    active: set[str],
+) -> dict[str, str]:
+    """Stage ``exclusions``: topic id -> reason for the topics the spec's ``exclude``
+    (``spec_targets``: topic ids, with their subtree) and the curation's ``exclude``
+    edits ((topic, with subtree, edit number)) remove. A topic below an excluded one
+    stays when it is reachable another way.
+
+    >>> parents = {"b": ["a"], "c": ["b", "x"], "x": ["a"]}
+    >>> exclude_topics(["b"], [], parents, {"a", "b", "c", "x"})
+    {'b': 'excluded'}
+    >>> exclude_topics(["b", "x"], [], parents, {"a", "b", "c", "x"})
+    {'b': 'excluded', 'x': 'excluded', 'c': 'in-excluded-subtree:b'}
+    """
     dropped: dict[str, str] = {}
-    active = {tid for tid, t in topics.items() if t.status == "active"}
-
-    # exclusions: the topic and its subtree, unless reachable another way
     targets: dict[str, str] = {}
     subtree_roots: dict[str, str] = {}
-    for iri in spec.exclude:
-        tid = node(iri)
+    for tid in spec_targets:
         if tid in active:
             targets.setdefault(tid, "excluded")
             subtree_roots.setdefault(tid, "excluded")
-    for tid, with_subtree, index in curated.excluded:
+    for tid, with_subtree, index in curated_targets:
         targets.setdefault(tid, f"excluded-by-curation:edit-{index}")
         if with_subtree:
             subtree_roots.setdefault(tid, f"excluded-by-curation:edit-{index}")
-    if targets:
-        parents0, _, _ = restrict_to(graph_parents, active)
-        children: dict[str, list[str]] = {}
-        for c, ps in parents0.items():
-            for p in ps:
-                children.setdefault(p, []).append(c)
-        below: dict[str, str] = {}
-        for root in sorted(subtree_roots):
-            for n in sorted(subtree(children, [root]) - {root}):
-                below.setdefault(n, f"in-excluded-subtree:{root}")
-        seeds = active - set(targets) - set(below)
-        reached = subtree(
-            {n: [c for c in cs if c not in targets] for n, cs in children.items()}, seeds
-        )
-        for tid, reason in targets.items():
+    if not targets:
+        return dropped
+    parents0, _, _ = restrict_to(graph_parents, active)
+    children: dict[str, list[str]] = {}
+    for c, ps in parents0.items():
+        for p in ps:
+            children.setdefault(p, []).append(c)
+    below: dict[str, str] = {}
+    for root in sorted(subtree_roots):
+        for n in sorted(subtree(children, [root]) - {root}):
+            below.setdefault(n, f"in-excluded-subtree:{root}")
+    seeds = active - set(targets) - set(below)
+    reached = subtree({n: [c for c in cs if c not in targets] for n, cs in children.items()}, seeds)
+    for tid, reason in targets.items():
+        dropped[tid] = reason
+    for tid, reason in below.items():
+        if tid not in reached and tid not in targets:
             dropped[tid] = reason
-        for tid, reason in below.items():
-            if tid not in reached and tid not in targets:
-                dropped[tid] = reason
-        active -= set(dropped)
+    return dropped
 
-    step("choosing preferred labels")
-    prefs: dict[str, tuple[dict, dict, list]] = {}
+
+#: topic id -> (preferred labels, languages lent from, other labels (which become aliases))
+Labels = dict[str, tuple[dict[str, str], dict[str, str], list[tuple[str, str]]]]
+
+
+def choose_preferred_labels(
+    topics: Mapping[str, Topic], tids: Iterable[str], rules: LanguageRules
+) -> tuple[Labels, dict[str, str]]:
+    """Stage ``labels``: one preferred label per language for each topic of ``tids``
+    (see :func:`~kgkit.vocab.aliases.choose_labels`), flagging lent labels, missing
+    required languages and topics without a label (on the working topics).
+
+    Returns (the labels by topic, topic -> first missing required language for the
+    topics the spec drops for it: ``missing: drop``).
+    """
+    prefs: Labels = {}
     missing_drop: dict[str, str] = {}
-    for tid in sorted(active | set(curated.merged)):
+    for tid in sorted(tids):
         t = topics[tid]
-        pref, borrowed, others = choose_labels(t.labels, lang_rules, t.label_override)
+        pref, borrowed, others = choose_labels(t.labels, rules, t.label_override)
         prefs[tid] = (pref, borrowed, others)
         for lang in borrowed:
             t.flags.add(f"fallback-label:{lang}")
-        for req in lang_rules.required:
+        for req in rules.required:
             if not any(lang_matches(x, [req]) for x in pref):
                 t.flags.add(f"missing-language:{req}")
-                if lang_rules.missing == "drop" and tid not in missing_drop:
+                if rules.missing == "drop" and tid not in missing_drop:
                     missing_drop[tid] = req
         if not pref:
             t.flags.add("no-label")
+    return prefs, missing_drop
 
-    step("pruning")
+
+def prune_stage(
+    spec: VocabSpec,
+    active: set[str],
+    graph_parents: Mapping[str, list[str]],
+    topics: Mapping[str, Topic],
+    missing_drop: dict[str, str],
+    instances: Mapping[str, int],
+    popularity: dict[str, float] | None,
+) -> dict[str, str]:
+    """Stage ``prune``: topic id -> reason for the topics the spec's pruning rules drop
+    (see :func:`~kgkit.vocab.prune.prune_topics`); nothing to judge without a rule."""
     rules = spec.prune
+    if not (missing_drop or rules.stop_topics or rules != type(rules)()):
+        return {}
     h0 = (
         repair_hierarchy(graph_parents, active)
         if rules.max_depth is not None or rules.min_descendants is not None
         else None
     )
-    any_rule = missing_drop or rules.stop_topics or rules != type(rules)()
-    pruned = (
-        prune_topics(
-            active,
-            rules,
-            h0,
-            {tid: topics[tid].source for tid in active},
-            missing_drop,
-            {src: n for src, n in fetched.instances.items()},
-            popularity,
-        )
-        if any_rule
-        else {}  # no rule and nothing missing: nothing to judge
+    return prune_topics(
+        active,
+        rules,
+        h0,
+        {tid: topics[tid].source for tid in active},
+        missing_drop,
+        dict(instances),
+        popularity,
     )
-    dropped.update(pruned)
-    active -= set(pruned)
 
-    step("repairing the hierarchy")
-    h = repair_hierarchy(graph_parents, active)
 
-    step("cleaning aliases")
-    keys = key_cache()
+@dataclass
+class Names:
+    """The ``aliases`` stage's result."""
+
+    names: dict[str, tuple[dict[str, str], dict[str, list[str]]]]  # topic -> (labels, aliases)
+    dropped: list[dict]  # aliases dropped, with their reasons
+    ambiguous: list[dict]  # match keys shared by several topics, and what was done
+    unlisted: set[tuple[str, str]]  # (topic, key) of preferred labels left out of the lexicon
+    settled_unlisted: set[tuple[str, str]]  # ... of those, the ones a settle edit left out
+    forms: dict[str, list[tuple[str, str, str]]]  # topic -> (language, form, name it came from)
+
+
+def collect_aliases(
+    spec: VocabSpec,
+    topics: Mapping[str, Topic],
+    active: Iterable[str],
+    prefs: Labels,
+    curated: CurationResult,
+    keys: dict[str, str],
+    edits: list[Edit] = (),
+    strict: bool = False,
+) -> Names:
+    """Stage ``aliases``: clean each active topic's aliases (its other labels join
+    them), then the lexicon rules in order: common words, settled names, ambiguity,
+    inflected forms (docs/lexicon.md). ``keys``: the match-key cache shared with the
+    lexicon stage. A settle edit that turns stale here is moved to ``curated.stale``."""
     names: dict[str, tuple[dict, dict]] = {}
     dropped_aliases: list[dict] = []
     for tid in sorted(active):
@@ -249,34 +348,87 @@ def build_vocabulary(
             continue
         raw = t.aliases + [(lg, x, "label") for lg, x in others]
         aliases, gone = clean_aliases(
-            tid, pref, raw, spec.aliases, lang_rules, t.alias_removals, keys
+            tid, pref, raw, spec.aliases, spec.languages, t.alias_removals, keys
         )
         names[tid] = (pref, aliases)
         dropped_aliases.extend(gone)
-    ambiguous, gone, unlisted = resolve_ambiguity(names, spec.aliases.ambiguous, keys)
+    # the lexicon rules (docs/lexicon.md): common words, settled names, ambiguity, forms
+    rules = spec.aliases
+    common = rules.common_words
+    if common is not None and common.drop_aliases:
+        dropped_aliases.extend(drop_common_aliases(names, common.min_zipf))
+    settle_stale, gone, settled_unlisted, settled = settle_names(names, curated.settlements, keys)
     dropped_aliases.extend(gone)
+    if settle_stale:
+        late = {s["edit"] for s in settle_stale}
+        curated.applied[:] = [a for a in curated.applied if a["edit"] not in late]
+        curated.stale.extend(settle_stale)
+        curated.stale.sort(key=lambda x: x["edit"])
+        if strict:
+            raise _stale_error(spec, edits, settle_stale)
+    ambiguous, gone, unlisted = resolve_ambiguity(
+        names, rules.ambiguous, keys, settled, settled_unlisted
+    )
+    dropped_aliases.extend(gone)
+    unlisted |= settled_unlisted
+    forms: dict[str, list[tuple[str, str, str]]] = {}
+    if rules.inflected_forms:
+        forms, gone, more = add_inflected_forms(
+            names,
+            rules.inflected_forms,
+            rules.ambiguous,
+            keys,
+            unlisted,
+            common.min_zipf if common is not None and common.drop_aliases else None,
+        )
+        dropped_aliases.extend(gone)
+        ambiguous = merge_ambiguous(ambiguous, more)
+    return Names(names, dropped_aliases, ambiguous, unlisted, settled_unlisted, forms)
 
-    step("making records")
+
+def merge_replacements(merged: Mapping[str, str], active: set[str], topics) -> dict[str, str]:
+    """Topic merged by the curation -> the active topic it ends in (a merge into a
+    merged topic is followed); flags ``replacement-dropped`` when that one was dropped.
+
+    >>> merge_replacements({"a": "b", "b": "c"}, {"c"}, {})
+    {'a': 'c', 'b': 'c'}
+    """
     replaced_by = {}
-    for tid in curated.merged:
-        target, seen = curated.merged[tid], {tid}
-        while target in curated.merged and target not in seen:  # merged into a merged topic
+    for tid in merged:
+        target, seen = merged[tid], {tid}
+        while target in merged and target not in seen:  # merged into a merged topic
             seen.add(target)
-            target = curated.merged[target]
+            target = merged[target]
         replaced_by[tid] = target
         if target not in active:
             topics[tid].flags.add("replacement-dropped")
+    return replaced_by
+
+
+def make_records(
+    ws: Workspace,
+    spec: VocabSpec,
+    topics: Mapping[str, Topic],
+    active: set[str],
+    replaced_by: Mapping[str, str],
+    prefs: Labels,
+    names: Names,
+    h: Hierarchy,
+) -> tuple[list[TopicRecord], dict[str, dict[str, str]]]:
+    """Stage ``records``: the topic records, sorted by id (the active topics and the
+    ones the curation merged, deprecated), and the language tags of lent labels."""
     records = []
     label_tags: dict[str, dict[str, str]] = {}
-    for tid in sorted(active | set(curated.merged)):
+    aliases_of = names.names
+    for tid in sorted(active | set(replaced_by)):
         t = topics[tid]
-        deprecated = tid in curated.merged
+        deprecated = tid in replaced_by
         pref, borrowed, _ = prefs[tid]
         if borrowed:
             label_tags[tid] = dict(borrowed)
         records.append(
             TopicRecord(
-                {} if deprecated else names[tid][1],  # aliases
+                {} if deprecated else aliases_of[tid][1],  # aliases
                 ws.compact(t.source) if t.source else None,  # curie
                 None if deprecated else h.depth[tid],
                 tuple(sorted(t.flags)) if t.flags else (),
@@ -293,9 +445,18 @@ def build_vocabulary(
                 DEPRECATED if deprecated else ACTIVE,
             )
         )
+    return records, label_tags
 
-    step("making the lexicon")
+
+def make_lexicon(
+    records: Iterable[TopicRecord], names: Names, keys: dict[str, str]
+) -> tuple[tuple[LexiconRow, ...], list[dict]]:
+    """Stage ``lexicon``: one row per name of each active topic (preferred labels,
+    aliases, inflected forms), sorted, with how many topics share its match key.
+    Returns (the rows, the preferred labels left out, as dropped aliases)."""
     rows = []
+    dropped: list[dict] = []
+    unlisted, settled_unlisted, forms = names.unlisted, names.settled_unlisted, names.forms
     for r in records:
         if not r.is_active:
             continue
@@ -303,19 +464,23 @@ def build_vocabulary(
         for lang, text in r.labels.items():
             key = keys[text]
             if (tid, key) in unlisted:
-                dropped_aliases.append(
+                dropped.append(
                     {
                         "alias": text,
                         "language": lang,
-                        "reason": "ambiguous-preferred-label-unlisted",
+                        "reason": "settled-by-curation-preferred-label-unlisted"
+                        if (tid, key) in settled_unlisted
+                        else "ambiguous-preferred-label-unlisted",
                         "topic": tid,
                     }
                 )
                 continue
-            rows.append((key, tid, lang, "preferred", text))
+            rows.append((key, tid, lang, "preferred", text, ""))
         for lang, texts in r.aliases.items():
             for text in texts:
-                rows.append((keys[text], tid, lang, "alias", text))
+                rows.append((keys[text], tid, lang, "alias", text, ""))
+        for lang, text, source in forms.get(tid, ()):
+            rows.append((keys[text], tid, lang, INFLECTED, text, source))
     # rows are unique by construction (one preferred label per language, aliases
     # deduplicated by key within a language, never equal to the label); sorting by one
     # joined string gives the tuple order (NUL sorts first) at a fraction of the cost
@@ -329,12 +494,27 @@ def build_vocabulary(
             s.add(row[1])
     lexicon = tuple(
         [
-            LexiconRow(text, key, tid, lang, kind, len(sharing[key]))
-            for key, tid, lang, kind, text in rows
+            LexiconRow(text, key, tid, lang, kind, len(sharing[key]), source)
+            for key, tid, lang, kind, text, source in rows
         ]
     )
+    return lexicon, dropped
 
-    step("making the report")
+
+def make_report(
+    spec: VocabSpec,
+    selected: list[str],
+    ident: Identified,
+    curated: CurationResult,
+    h: Hierarchy,
+    dropped: Mapping[str, str],
+    names: Names,
+    records: list[TopicRecord],
+    lexicon: tuple[LexiconRow, ...],
+    extra: dict | None = None,
+) -> Report:
+    """Stage ``report``: counts and every decision of the compile with its reason."""
+    topics = ident.topics
     dropped_topics = sorted(
         (
             {"id": tid, "reason": reason, "source": topics[tid].source}
@@ -342,6 +522,7 @@ def build_vocabulary(
         ),
         key=lambda d: d["id"],
     )
+    dropped_aliases = names.dropped
     dropped_aliases.sort(key=lambda d: (d["topic"], d["language"], d["alias"], d["reason"]))
 
     def by_reason(items, key):
@@ -351,7 +532,7 @@ def build_vocabulary(
     counts = {
         "added_by_curation": sum(1 for r in active_records if r.origin == "curation"),
         "aliases": sum(len(v) for r in active_records for v in r.aliases.values()),
-        "ambiguous_keys": len(ambiguous),
+        "ambiguous_keys": len(names.ambiguous),
         "curation_applied": len(curated.applied),
         "curation_stale": len(curated.stale),
         "cycles_broken": len(h.cycles),
@@ -360,7 +541,8 @@ def build_vocabulary(
         "dropped_aliases_by_reason": by_reason(dropped_aliases, "reason"),
         "dropped_topics": len(dropped_topics),
         "dropped_topics_by_reason": by_reason(dropped_topics, "reason"),
-        "id_clashes": len(clashes),
+        "id_clashes": len(ident.clashes),
+        "inflected_forms": sum(1 for row in lexicon if row.kind == INFLECTED),
         "lexicon_rows": len(lexicon),
         "max_depth": max((r.depth for r in active_records), default=0),
         "new_roots": len(h.new_roots),
@@ -370,19 +552,100 @@ def build_vocabulary(
         "selected": len(selected),
         "topics": len(active_records),
     }
-    report = Report(
-        ambiguous=ambiguous,
+    extra = dict(extra or {})
+    common = spec.aliases.common_words
+    if common is not None:
+        from kgkit.vocab.frequency import common_words
+
+        extra["common_words"] = common_words(
+            ((row.alias, row.topic, row.language, row.kind) for row in lexicon), common.min_zipf
+        )
+        counts["common_words"] = len(extra["common_words"])
+    return Report(
+        ambiguous=names.ambiguous,
         counts=counts,
         curation={"applied": curated.applied, "stale": curated.stale},
         cycles=h.cycles,
         dropped_aliases=dropped_aliases,
         dropped_topics=dropped_topics,
-        id_clashes=clashes,
+        id_clashes=ident.clashes,
         new_roots=h.new_roots,
         reattached=h.reattached,
         reductions=h.reductions,
         spec={"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
+        extra=extra,
     )
+
+
+def build_vocabulary(
+    ws: Workspace,
+    spec: VocabSpec,
+    selected: list[str],
+    fetched: Fetched,
+    edits: list[Edit] = (),
+    popularity: dict[str, float] | None = None,
+    strict: bool = False,
+    progress: Callable[[str], None] | None = None,
+) -> Vocabulary:
+    """Compile in memory from already fetched data (no store needed).
+
+    The stages, in order: ids (:func:`identify_topics`), curation
+    (:func:`curate_topics`), exclusions (:func:`exclude_topics`), labels
+    (:func:`choose_preferred_labels`), prune (:func:`prune_stage`), hierarchy
+    (:func:`~kgkit.vocab.hierarchy.repair_hierarchy`), aliases
+    (:func:`collect_aliases`), records (:func:`make_records`), lexicon
+    (:func:`make_lexicon`), report (:func:`make_report`).
+    """
+
+    def step(text: str) -> None:
+        if progress:
+            progress(text)
+
+    step("giving ids")
+    ident = identify_topics(selected, fetched)
+    topics, graph_parents = ident.topics, ident.graph_parents
+
+    step("applying the curation")
+    curated = curate_topics(ws, spec, edits, ident, strict)
+    active = {tid for tid, t in topics.items() if t.status == ACTIVE}
+
+    dropped = exclude_topics(
+        [ident.ids.get(iri, iri) for iri in spec.exclude],
+        curated.excluded,
+        graph_parents,
+        active,
+    )
+    active -= set(dropped)
+
+    step("choosing preferred labels")
+    prefs, missing_drop = choose_preferred_labels(
+        topics, active | set(curated.merged), spec.languages
+    )
+
+    step("pruning")
+    pruned = prune_stage(
+        spec, active, graph_parents, topics, missing_drop, fetched.instances, popularity
+    )
+    dropped.update(pruned)
+    active -= set(pruned)
+
+    step("repairing the hierarchy")
+    h = repair_hierarchy(graph_parents, active)
+
+    step("cleaning aliases")
+    keys = key_cache()
+    names = collect_aliases(spec, topics, active, prefs, curated, keys, edits, strict)
+
+    step("making records")
+    replaced_by = merge_replacements(curated.merged, active, topics)
+    records, label_tags = make_records(ws, spec, topics, active, replaced_by, prefs, names, h)
+
+    step("making the lexicon")
+    lexicon, unlisted = make_lexicon(records, names, keys)
+    names.dropped.extend(unlisted)
+
+    step("making the report")
+    report = make_report(spec, selected, ident, curated, h, dropped, names, records, lexicon)
     return Vocabulary(
         scheme_of(spec), tuple(records), lexicon, report, label_tags, display_languages(spec)
     )
@@ -451,6 +714,7 @@ def compile_vocabulary(
     summary = {
         "aliases": c["aliases"],
         "ambiguous_keys": c["ambiguous_keys"],
+        **({"common_words": c["common_words"]} if "common_words" in c else {}),
         "cycles_broken": c["cycles_broken"],
         "deprecated": c["deprecated"],
         "dropped": c["dropped_topics"],
