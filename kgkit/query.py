@@ -9,7 +9,10 @@ and prefixed names are skipped, so ``"SERVICE"`` in a literal or ``ex:drop`` doe
 not count):
 
 - an update (INSERT, DELETE, LOAD, CLEAR, DROP, ...) is refused unless
-  ``allow_update`` is given, and then only on a store opened for writing;
+  ``allow_update`` is given, and then only on a store opened for writing, and only
+  when it keeps kgkit's own records true (:func:`check_update`); the statement
+  counts of the graphs it changes are brought up to date in the same transaction;
+- LOAD, which reads local files or fetches URLs, is refused unless ``allow_load``;
 - a query holding a SERVICE clause is refused unless ``allow_service`` is given,
   because pyoxigraph answers SERVICE by making HTTP requests.
 
@@ -42,7 +45,14 @@ import pyoxigraph as ox
 
 import kgkit
 from kgkit.errors import ArgumentError, NotFoundError, QueryError
-from kgkit.store import KG, PROVENANCE_GRAPH, current_graphs, open_store
+from kgkit.store import (
+    KG,
+    PROVENANCE_GRAPH,
+    import_node_iri,
+    is_bookkeeping_iri,
+    list_graphs,
+    open_store,
+)
 from kgkit.workspace import Workspace
 
 __all__ = [
@@ -52,9 +62,11 @@ __all__ = [
     "EndpointBackend",
     "QueryResult",
     "Token",
+    "check_update",
     "connect",
     "format_term",
     "has_service",
+    "named_iris",
     "query_form",
     "run_query",
     "tokenize",
@@ -207,7 +219,7 @@ def syntax_error(text: str, exc: Exception, where: str = "query") -> QueryError:
     )
 
 
-def _check_guards(text: str, allow_update: bool, allow_service: bool) -> str:
+def _check_guards(text: str, allow_update: bool, allow_service: bool, allow_load: bool) -> str:
     form = query_form(text)
     if form == "UPDATE" and not allow_update:
         raise QueryError(
@@ -221,7 +233,119 @@ def _check_guards(text: str, allow_update: bool, allow_service: bool) -> str:
             "refused (give allow_service=True to run it)",
             params=("allow_service",),
         )
+    if form == "UPDATE" and "LOAD" in _words(text) and not allow_load:
+        raise QueryError(
+            "the update holds LOAD, which reads a local file or fetches a URL over the "
+            "network; refused (give allow_load=True to run it, or import the file with "
+            "kgkit import)",
+            params=("allow_load",),
+        )
     return form
+
+
+def _words(text: str) -> set[str]:
+    return {t.text.upper() for t in tokenize(text) if t.kind == "word"}
+
+
+#: update operations that create, empty or remove whole graphs
+_GRAPH_OPERATIONS = frozenset({"CLEAR", "DROP", "CREATE", "ADD", "MOVE", "COPY"})
+
+
+def _resolve(ref: str, base: str | None) -> str:
+    """An IRI written in a query, resolved against its BASE as the SPARQL parser does."""
+    if base is None or re.match(r"^[A-Za-z][A-Za-z0-9+.-]*:", ref):
+        return ref
+    try:
+        (q,) = ox.parse(
+            input=f"<{ref}> <{ref}> <{ref}> .".encode(), format=ox.RdfFormat.TURTLE, base_iri=base
+        )
+    except (SyntaxError, ValueError):
+        return ref
+    return q.subject.value
+
+
+def named_iris(text: str, prefixes: dict[str, str]) -> set[str]:
+    """Every IRI a SPARQL text names: written in full, relative to its BASE, or as a
+    prefixed name (its own PREFIX lines first, then ``prefixes``).
+
+    >>> sorted(named_iris("PREFIX e: <http://e/> INSERT DATA { e:a <b> 1 }", {}))
+    ['b', 'http://e/', 'http://e/a']
+    """
+    toks = list(tokenize(text))
+    base: str | None = None
+    declared: dict[str, str] = {}
+    out: set[str] = set()
+    for i, tok in enumerate(toks):
+        if tok.kind == "iri":
+            iri = _resolve(tok.text[1:-1], base)
+            out.add(iri)
+            prev = toks[i - 1] if i else None
+            if prev is not None and prev.kind == "word" and prev.text.upper() == "BASE":
+                base = iri
+            elif (
+                i >= 2
+                and prev is not None
+                and prev.kind == "pname"
+                and toks[i - 2].kind == "word"
+                and toks[i - 2].text.upper() == "PREFIX"
+            ):
+                declared[prev.text[:-1]] = iri
+        elif tok.kind == "pname":
+            name, _, local = tok.text.partition(":")
+            ns = declared.get(name, prefixes.get(name))
+            if ns is not None:
+                out.add(ns + re.sub(r"\\(.)", r"\1", local))
+    return out
+
+
+def check_update(text: str, prefixes: dict[str, str], content_graphs: set[str]) -> set[str]:
+    """Refuse an update that could put ``kgkit graphs`` out of step with what queries see.
+
+    kgkit's own records (the provenance graph, its terms, the content graphs behind the
+    graph names) are kept true by kgkit alone: an update may add and remove statements
+    *in* a current content graph, named by its IRI, but not name the provenance, empty
+    or remove a content graph (``kgkit drop`` does that), address graphs through a
+    variable (``GRAPH ?g`` would reach the provenance too), or use ``ALL``/``NAMED``.
+    Returns the content graphs the update names, whose statement counts are brought
+    up to date in the same transaction.
+    """
+    toks = list(tokenize(text))
+    words = {t.text.upper() for t in toks if t.kind == "word"}
+    for i, tok in enumerate(toks[:-1]):
+        if tok.kind == "word" and tok.text.upper() == "GRAPH" and toks[i + 1].kind == "var":
+            raise QueryError(
+                f"the update names a graph through {toks[i + 1].text}, which could reach "
+                "kgkit's own records; refused (name each graph by its IRI)"
+            )
+    for tok in toks:
+        if (
+            tok.kind == "word"
+            and tok.text.upper() in ("ALL", "NAMED")
+            and words
+            & {
+                "CLEAR",
+                "DROP",
+            }
+        ):
+            raise QueryError(
+                f"{tok.text.upper()} would also remove kgkit's own records; refused "
+                "(remove a graph with kgkit drop NAME)"
+            )
+    named = named_iris(text, prefixes)
+    touched = named & content_graphs
+    for iri in sorted(named - touched):
+        if is_bookkeeping_iri(iri):
+            raise QueryError(
+                f"the update names <{iri}>, which belongs to kgkit's own records; refused "
+                "(only the statements of current graphs can be changed)"
+            )
+    if touched and words & _GRAPH_OPERATIONS:
+        op = sorted(words & _GRAPH_OPERATIONS)[0]
+        raise QueryError(
+            f"{op} on a graph's content would put kgkit graphs out of step with queries; "
+            "refused (remove a graph with kgkit drop NAME, replace it with kgkit import)"
+        )
+    return touched
 
 
 # ---------------------------------------------------------------------------
@@ -259,7 +383,9 @@ class EmbeddedBackend(Backend):
         self.ws = ws
         self.store = store
         self.writable = writable
-        self.graph_names = {iri: name for name, iri in current_graphs(store).items()}
+        infos = list_graphs(store)
+        self.graph_names = {g.content: g.name for g in infos}
+        self.import_nodes = {g.content: import_node_iri(g.import_id) for g in infos}
 
     def execute(self, text: str, form: str, graphs: list[str] | None) -> QueryResult:
         if form == "UPDATE":
@@ -268,10 +394,20 @@ class EmbeddedBackend(Backend):
                     "the store is open read-only; an update needs allow_update=True",
                     params=("allow_update",),
                 )
+            touched = check_update(text, dict(self.ws.prefixes), set(self.graph_names))
+            # the new counts are written by the same request, so in the same transaction:
+            # kgkit graphs and queries agree whatever happens
+            recount = "".join(_recount(iri, self.import_nodes[iri]) for iri in sorted(touched))
+            body = text
+            toks = list(tokenize(text))
+            if recount and toks and toks[-1].text == ";":
+                body = text[: toks[-1].start]
             try:
-                self.store.update(text, prefixes=dict(self.ws.prefixes))
+                self.store.update(body + recount, prefixes=dict(self.ws.prefixes))
             except SyntaxError as exc:
                 raise syntax_error(text, exc, "update") from None
+            except OSError as exc:
+                raise QueryError(f"update failed: {exc}") from None
             return QueryResult(kind="update")
         dataset = [ox.NamedNode(g) for g in self.content_graphs(graphs)]
         try:
@@ -286,6 +422,17 @@ class EmbeddedBackend(Backend):
         except OSError as exc:
             raise QueryError(f"query failed: {exc}") from None
         return _wrap(res, text)
+
+
+def _recount(content: str, node: str) -> str:
+    """An update operation recording the statement count of a content graph."""
+    stat = f"<{KG}statements>"
+    return (
+        f"\n;\nDELETE {{ GRAPH {PROVENANCE_GRAPH} {{ <{node}> {stat} ?old }} }} "
+        f"INSERT {{ GRAPH {PROVENANCE_GRAPH} {{ <{node}> {stat} ?n }} }} "
+        f"WHERE {{ {{ SELECT (COUNT(*) AS ?n) WHERE {{ GRAPH <{content}> {{ ?s ?p ?o }} }} }} "
+        f"OPTIONAL {{ GRAPH {PROVENANCE_GRAPH} {{ <{node}> {stat} ?old }} }} }}"
+    )
 
 
 def _wrap(res, text: str) -> QueryResult:
@@ -378,10 +525,7 @@ class EndpointBackend(Backend):
                 raise syntax_error(text, exc) from None
         dataset = self.content_graphs(graphs) if self.graph_names else None
         if graphs is not None and not self.graph_names:
-            raise QueryError(
-                f"{self.url}: the endpoint has no kgkit graphs; leave out graphs",
-                params=("graphs",),
-            )
+            raise QueryError(f"{self.url}: the endpoint has no kgkit graphs to choose from")
         if form in ("CONSTRUCT", "DESCRIBE"):
             res = self._post({"query": full}, "application/n-triples", dataset)
             return QueryResult(kind="graph", triples=self._triples(res))
@@ -439,13 +583,16 @@ def run_query(
     graphs: list[str] | None = None,
     allow_update: bool = False,
     allow_service: bool = False,
+    allow_load: bool = False,
 ) -> QueryResult:
     """Run one SPARQL query (or, with ``allow_update``, an update) on a backend.
 
     ``graphs``: graph names to query (default: every current graph). Workspace
-    prefixes are available without being declared.
+    prefixes are available without being declared. ``allow_service`` lets SERVICE
+    clauses reach the network; ``allow_load`` lets an update's LOAD read a file or
+    fetch a URL. An update must keep kgkit's records true (:func:`check_update`).
     """
-    form = _check_guards(sparql, allow_update, allow_service)
+    form = _check_guards(sparql, allow_update, allow_service, allow_load)
     return backend.execute(sparql, form, graphs)
 
 

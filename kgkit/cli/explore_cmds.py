@@ -79,8 +79,13 @@ def _out():
     is_flag=True,
     help="Run a SPARQL update (INSERT, DELETE, DROP...) on the store, opened for writing.",
 )
+@click.option(
+    "--allow-load",
+    is_flag=True,
+    help="Let an update's LOAD read a local file or fetch a URL over the network.",
+)
 @click.pass_context
-def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_update):
+def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_update, allow_load):
     """Run a SPARQL query on the store (or the workspace's endpoint).
 
     Give the query as the SPARQL argument, in --file FILE, or on standard input
@@ -112,6 +117,7 @@ def query_command(ctx, sparql, path, fmt, graphs, allow_service, timeout, allow_
             graphs=list(graphs) or None,
             allow_update=allow_update,
             allow_service=allow_service,
+            allow_load=allow_load,
         )
         write_result(res, _out(), fmt, ws)
 

@@ -179,6 +179,10 @@ def import_command(
             click.echo(f"  {key:<10} {getattr(s, key):>{width},}")
         if s.rejects and s.rejected:
             click.echo(f"  rejected statements set aside in {s.rejects}")
+        if s.reclaimable:
+            click.echo(
+                "  the replaced content is seen by no query; free its space with: kgkit reclaim"
+            )
 
 
 @click.command("graphs")
@@ -193,8 +197,11 @@ def graphs_command(ctx, as_json):
     Example: kgkit graphs --json
     """
     ws = get_workspace(ctx)
+    from kgkit.cli.store_cmds import reclaimable_note
+
     with open_store(ws.store_path) as store:
         graphs = list_graphs(store)
+        note = reclaimable_note(store)
     if as_json:
         for g in graphs:
             echo_json(
@@ -212,11 +219,11 @@ def graphs_command(ctx, as_json):
         return
     if not graphs:
         click.echo("no graphs yet; import one with: kgkit import FILE")
-        return
     for g in graphs:
         c = g.counts
+        edited = " after updates" if "statements" in c else ""
         click.echo(
-            f"{g.name}  {c.get('loaded', 0):,} statements  (import {g.import_id}, {g.ended})"
+            f"{g.name}  {g.statements:,} statements{edited}  (import {g.import_id}, {g.ended})"
         )
         for f in g.files:
             comp = "" if f.compression == "none" else f", {f.compression}"
@@ -226,6 +233,8 @@ def graphs_command(ctx, as_json):
             f"{c.get('duplicates', 0):,} + filtered {c.get('filtered', 0):,} + rejected "
             f"{c.get('rejected', 0):,}"
         )
+    if note:
+        click.echo(note)
 
 
 @click.command("slice")
