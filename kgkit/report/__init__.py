@@ -7,7 +7,8 @@ inline SVG), so it opens from a file, offline, and can be mailed around. It hold
   (matched the way the lexicon matches: NFKC and case folding);
 - per topic: labels by language, aliases, parents, children, and where it came
   from (source IRI, graph, origin, flags, status and replacement);
-- tables of ambiguous aliases, dropped topics and aliases with their reasons,
+- tables of ambiguous aliases, common words (names frequent in general text, when
+  the spec asks), dropped topics and aliases with their reasons,
   hierarchy repairs, lint findings (from :mod:`kgkit.release.lint`) and the
   changelog against the previous release;
 - charts of topics by depth and of label coverage by language.
@@ -330,6 +331,17 @@ def render_page(review: Review) -> str:
         ]
         for a in ambiguous
     ]
+    common = report.get("common_words")  # present when the spec sets aliases.common_words
+    common_rows = [
+        [
+            _e(c.get("alias") or ""),
+            _e(c.get("language") or "-"),
+            _e(f"{c.get('zipf', 0):.2f}"),
+            ", ".join(_topic_link(t) for t in c.get("topics") or []),
+            _e(", ".join(c.get("kinds") or [])),
+        ]
+        for c in common or []
+    ]
     dropped = report.get("dropped_topics") or []
     drop_rows = [
         [
@@ -454,6 +466,7 @@ def render_page(review: Review) -> str:
         ("aliases", f"{n_aliases:,}"),
         ("languages", ", ".join(lang or "untagged" for lang in languages) or "none"),
         ("ambiguous keys", f"{len(ambiguous):,}"),
+        *([("common words", f"{len(common):,}")] if common is not None else []),
         ("dropped topics", f"{len(dropped):,}"),
         ("curation edits", f"{len(applied_cur):,} applied, {len(stale_cur):,} stale"),
     ]
@@ -476,6 +489,22 @@ def render_page(review: Review) -> str:
                     amb_rows,
                     "no match key is shared by two topics.",
                 ),
+            ),
+            *(
+                [
+                    _section(
+                        "common",
+                        "Common words (frequent in general text: false hits likely)",
+                        len(common),
+                        _table(
+                            ["name", "language", "Zipf", "topics", "kind"],
+                            common_rows,
+                            "no name reaches the spec's Zipf frequency.",
+                        ),
+                    )
+                ]
+                if common is not None
+                else []
             ),
             _section(
                 "dropped",
@@ -505,6 +534,7 @@ def render_page(review: Review) -> str:
             _section("provenance", "Provenance", None, _provenance(review.manifest)),
         ]
     )
+    common_link = '<a href="#common">Common words</a>' if common is not None else ""
     body = f"""
 <header class="top">
   <div class="brand"><span class="mark" aria-hidden="true"></span>kgkit review</div>
@@ -514,8 +544,8 @@ def render_page(review: Review) -> str:
   {notes_html}
   <nav class="jump">
     <a href="#topics">Topics</a><a href="#changes">Changes</a><a href="#ambiguous">Ambiguous</a>
-    <a href="#dropped">Dropped</a><a href="#repairs">Repairs</a><a href="#lint">Lint</a>
-    <a href="#charts">Charts</a><a href="#provenance">Provenance</a>
+    {common_link}<a href="#dropped">Dropped</a><a href="#repairs">Repairs</a>
+    <a href="#lint">Lint</a><a href="#charts">Charts</a><a href="#provenance">Provenance</a>
   </nav>
 </header>
 <main>
