@@ -40,6 +40,7 @@ from kgkit.vocab.aliases import (
     choose_labels,
     clean_aliases,
     drop_common_aliases,
+    is_from_alias,
     key_cache,
     lang_matches,
     merge_ambiguous,
@@ -256,8 +257,10 @@ def choose_preferred_labels(
     topics: Mapping[str, Topic], tids: Iterable[str], rules: LanguageRules
 ) -> tuple[Labels, dict[str, str]]:
     """Stage ``labels``: one preferred label per language for each topic of ``tids``
-    (see :func:`~kgkit.vocab.aliases.choose_labels`), flagging lent labels, missing
-    required languages and topics without a label (on the working topics).
+    (see :func:`~kgkit.vocab.aliases.choose_labels`; an alias of a kept language
+    without a label can become it), flagging labels taken from an alias or lent by a
+    fallback language, missing required languages and topics without a label (on
+    the working topics).
 
     Returns (the labels by topic, topic -> first missing required language for the
     topics the spec drops for it: ``missing: drop``).
@@ -266,10 +269,13 @@ def choose_preferred_labels(
     missing_drop: dict[str, str] = {}
     for tid in sorted(tids):
         t = topics[tid]
-        pref, borrowed, others = choose_labels(t.labels, rules, t.label_override)
+        pref, borrowed, others = choose_labels(t.labels, rules, t.label_override, t.aliases)
         prefs[tid] = (pref, borrowed, others)
-        for lang in borrowed:
-            t.flags.add(f"fallback-label:{lang}")
+        for lang, lent_by in borrowed.items():
+            if is_from_alias(lang, lent_by):
+                t.flags.add(f"label-from-alias:{lang}")
+            else:
+                t.flags.add(f"fallback-label:{lang}")
         for req in rules.required:
             if not any(lang_matches(x, [req]) for x in pref):
                 t.flags.add(f"missing-language:{req}")
@@ -512,8 +518,10 @@ def make_report(
     records: list[TopicRecord],
     lexicon: tuple[LexiconRow, ...],
     extra: dict | None = None,
+    graphs: list[dict] | None = None,
 ) -> Report:
-    """Stage ``report``: counts and every decision of the compile with its reason."""
+    """Stage ``report``: counts and every decision of the compile with its reason;
+    ``graphs``: the graphs the fetch read (:attr:`Fetched.graphs_read`)."""
     topics = ident.topics
     dropped_topics = sorted(
         (
@@ -573,6 +581,7 @@ def make_report(
         reattached=h.reattached,
         reductions=h.reductions,
         spec={"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
+        graphs=list(graphs or []),
         extra=extra,
     )
 
@@ -645,7 +654,10 @@ def build_vocabulary(
     names.dropped.extend(unlisted)
 
     step("making the report")
-    report = make_report(spec, selected, ident, curated, h, dropped, names, records, lexicon)
+    report = make_report(
+        spec, selected, ident, curated, h, dropped, names, records, lexicon,
+        graphs=fetched.graphs_read,
+    )  # fmt: skip
     return Vocabulary(
         scheme_of(spec), tuple(records), lexicon, report, label_tags, display_languages(spec)
     )

@@ -278,7 +278,7 @@ _REPORT_KEYS = (
     "spec",
 )
 #: keys written only when set
-_REPORT_OPTIONAL = ("carried_names", "lost_names", "release_deprecations")
+_REPORT_OPTIONAL = ("carried_names", "graphs", "lost_names", "release_deprecations")
 
 
 @dataclass(frozen=True)
@@ -287,7 +287,9 @@ class Report:
 
     ``carried_names``, ``lost_names`` and ``release_deprecations`` are present only when
     the vocabulary has a previous release to compare with (None otherwise, and then
-    absent from the file). ``extra``: keys this version does not know, kept as read.
+    absent from the file). ``graphs``: the graphs the compile read, each
+    ``{"name", "profile": "own"|"workspace", "untagged_language"}`` (absent in reports
+    of older versions). ``extra``: keys this version does not know, kept as read.
     """
 
     ambiguous: list = field(default_factory=list)
@@ -302,6 +304,7 @@ class Report:
     reductions: list = field(default_factory=list)
     spec: dict = field(default_factory=dict)
     carried_names: list | None = None
+    graphs: list | None = None
     lost_names: list | None = None
     release_deprecations: list | None = None
     extra: dict = field(default_factory=dict)
