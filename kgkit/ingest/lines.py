@@ -26,6 +26,7 @@ import pyoxigraph as ox
 
 from kgkit.ingest.formats import RDF_FORMATS
 from kgkit.ingest.records import RecordError, _Terms, parse_record_line
+from kgkit.ingest.sift import sift_chunk
 from kgkit.ingest.slicing import Slice
 from kgkit.workspace import Workspace
 
@@ -283,6 +284,18 @@ def process_chunk(
         res.read = count_statements(data)
         res.raw = data
         return res
+    # lines whose predicate the slice cannot keep are set aside unparsed when the whole
+    # chunk is of the strict subset kgkit.ingest.sift vouches for
+    whole, before = data, (res.read, res.filtered)
+    sifted = (
+        sift_chunk(data, spec.format, sl.predicates)
+        if sl.predicates is not None and spec.format in ("nt", "nq")
+        else None
+    )
+    if sifted is not None:
+        res.read += sifted.skipped
+        res.filtered += sifted.skipped
+        data = sifted.kept
     kept_text: list[str] = []
     blank: list = []
     keeps = None if sl.is_everything else sl.keeps
@@ -315,6 +328,8 @@ def process_chunk(
         lines = []  # the whole chunk parsed: no need to look at its lines
     except SyntaxError:
         res.read, res.filtered = read, filtered
+        if sifted is not None:  # not expected (the subset parses): parse the chunk whole
+            data, (res.read, res.filtered) = whole, before
         del kept_text[n_text:], blank[n_blank:]
         lines = split_lines(data)
     pos, window = 0, len(lines)

@@ -1,0 +1,173 @@
+"""Sifting: setting aside, without parsing them, the lines of a chunk a slice cannot keep.
+
+A slice that keeps a few predicates throws most of a real dump away, and turning each of
+those statements into Python objects only to drop it costs several times more than
+reading the file. :func:`sift_chunk` decides, on the chunk's bytes alone, which lines can
+matter and hands back only those, for the parser.
+
+What a line skipped unparsed is checked against, so that a malformed line is never silently
+dropped: the whole chunk must be valid UTF-8 and every line must belong to a strict subset
+of N-Triples (or N-Quads), matched by one regular expression over the whole chunk
+(RE2, linear time):
+
+- subject, predicate, object (and graph) separated by spaces or tabs, a final ``.``, an
+  optional comment; ``\\n`` or ``\\r\\n`` line ends; empty and comment lines;
+- IRIs absolute, in ASCII, with the generic syntax of RFC 3986 (scheme, an authority of
+  registered-name characters and an optional numeric port, path, query, fragment;
+  ``%`` only before two hex digits; no user information, no IP literals, no escapes);
+- blank node labels of ASCII letters, digits, ``_``, ``-`` and inner ``.``;
+- literals without raw control characters, with the escapes ``\\t \\b \\n \\r \\f \\" \\'
+  \\\\`` and ``\\uXXXX`` outside the surrogate range, and an optional language tag of the
+  common BCP 47 shapes (language, script, region, variants) or datatype IRI.
+
+Every line of this subset is accepted by the parser (tests check it against the W3C
+N-Triples and N-Quads suites and against generated lines); a chunk holding any line
+outside it (an escape in an IRI, a rare language tag, a bad line) is not sifted and goes
+through the parser whole, which then sets its bad lines aside as before. So the statements
+kept, their order and the rejected lines are exactly those of parsing everything.
+
+Which lines can matter: those whose second term is one of the kept predicates, found by
+searching the chunk for the predicates' IRIs (Aho-Corasick) and checking that the match
+stands in the predicate's place on its line.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import ahocorasick_rs
+import re2
+
+__all__ = ["Sifted", "sift_chunk", "line_pattern"]
+
+# -- the strict subset, as one regular expression ------------------------------------
+
+_HEX = "[0-9A-Fa-f]"
+_PCT = f"%{_HEX}{_HEX}"
+# RFC 3986: unreserved / sub-delims (and ':' '@' where allowed); '%' only as an escape
+_REGNAME = f"(?:[A-Za-z0-9._~!$&'()*+,;=-]|{_PCT})"
+_PCHAR = f"(?:[A-Za-z0-9._~!$&'()*+,;=:@-]|{_PCT})"
+_QCHAR = f"(?:[A-Za-z0-9._~!$&'()*+,;=:@/?-]|{_PCT})"
+_PATH_AFTER_AUTHORITY = f"(?:/(?:{_PCHAR}|/)*)?"
+_PATH_ABSOLUTE = f"/(?:{_PCHAR}(?:{_PCHAR}|/)*)?"
+_PATH_ROOTLESS = f"{_PCHAR}(?:{_PCHAR}|/)*"
+_IRI = (
+    "<[A-Za-z][A-Za-z0-9+.-]*:"
+    f"(?://{_REGNAME}*(?::[0-9]*)?{_PATH_AFTER_AUTHORITY}|{_PATH_ABSOLUTE}|{_PATH_ROOTLESS})?"
+    f"(?:\\?{_QCHAR}*)?(?:#{_QCHAR}*)?>"
+)
+_BNODE = "_:[A-Za-z0-9_](?:[A-Za-z0-9_.-]*[A-Za-z0-9_-])?"
+# \uXXXX outside D800-DFFF (a lone surrogate is no character)
+_UCHAR = f"\\\\u(?:[0-9A-Ca-cEeFf]{_HEX}{{3}}|[Dd][0-7]{_HEX}{{2}})"
+_LITCHAR = '[^"\\\\\\x00-\\x1f\\x7f]'
+_LANG = (
+    "@[a-zA-Z]{2,3}(?:-[a-zA-Z]{4})?(?:-(?:[a-zA-Z]{2}|[0-9]{3}))?"
+    "(?:-(?:[a-zA-Z0-9]{5,8}|[0-9][a-zA-Z0-9]{3}))*"
+)
+_LITERAL = f'"(?:{_LITCHAR}|\\\\[tbnrf"\'\\\\]|{_UCHAR})*"(?:{_LANG}|\\^\\^{_IRI})?'
+_WS = "[ \\t]"
+_END = f"{_WS}*\\.{_WS}*(?:#[^\\r\\n]*)?\\r?"
+_BLANK_LINE = f"{_WS}*(?:#[^\\r\\n]*)?\\r?"
+
+
+def line_pattern(quads: bool) -> str:
+    """The regular expression (RE2 syntax) of one line of the subset, without its ``\\n``."""
+    subject = f"(?:{_IRI}|{_BNODE})"
+    obj = f"(?:{_IRI}|{_BNODE}|{_LITERAL})"
+    graph = f"(?:{_WS}+(?:{_IRI}|{_BNODE}))?" if quads else ""
+    statement = f"{_WS}*{subject}{_WS}+{_IRI}{_WS}+{obj}{graph}{_END}"
+    return f"(?:{statement}|{_BLANK_LINE})"
+
+
+@lru_cache(maxsize=2)
+def _chunk_regex(quads: bool):
+    line = line_pattern(quads)
+    options = re2.Options()
+    options.encoding = re2.Options.Encoding.LATIN1  # bytes; UTF-8 is checked apart
+    options.max_mem = 256 << 20  # room for the DFA of a long pattern
+    return re2.compile(f"(?:{line}\\n)*{line}?".encode("latin-1"), options)
+
+
+@lru_cache(maxsize=8)
+def _predicate_finder(predicates: frozenset[str]):
+    pats = sorted(f"<{p}>".encode() for p in predicates if p.isascii())
+    return ahocorasick_rs.BytesAhoCorasick(pats) if pats else None
+
+
+def _is_subset_chunk(data: bytes, quads: bool) -> bool:
+    try:
+        data.decode("utf-8")
+    except UnicodeDecodeError:
+        return False
+    return _chunk_regex(quads).fullmatch(data) is not None
+
+
+# -- sifting -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Sifted:
+    """The lines of a chunk that can matter, and how many statements were set aside.
+
+    ``kept``: the lines (bytes, each with its line end) whose predicate is a kept one,
+    in their order; ``skipped``: statements of the chunk not among them.
+    """
+
+    kept: bytes
+    skipped: int
+
+
+def sift_chunk(data: bytes, fmt: str, predicates: frozenset[str]) -> Sifted | None:
+    """Lines of ``data`` whose predicate is in ``predicates``, or None when the chunk
+    cannot be vouched for (then it must be parsed whole).
+
+    ``fmt``: ``"nt"`` or ``"nq"``.
+
+    >>> d = (b'<http://a.example/x> <http://a.example/label> "x"@en .\\n'
+    ...      b'<http://a.example/x> <http://a.example/height> "2" .\\n')
+    >>> s = sift_chunk(d, "nt", frozenset({"http://a.example/label"}))
+    >>> s.kept, s.skipped
+    (b'<http://a.example/x> <http://a.example/label> "x"@en .\\n', 1)
+    >>> sift_chunk(b"<x> <y> <z> .\\n", "nt", frozenset({"y"})) is None  # relative IRIs
+    True
+    """
+    if fmt not in ("nt", "nq") or not _is_subset_chunk(data, fmt == "nq"):
+        return None
+    finder = _predicate_finder(predicates)
+    starts: list[int] = []
+    if finder is not None:
+        last = -1
+        for _pat, at, _end in finder.find_matches_as_indexes(data):
+            start = data.rfind(b"\n", 0, at) + 1
+            if start == last:
+                continue
+            head = data[start:at]
+            # in the predicate's place: one term (no white space in it) and white space
+            token = head.strip(b" \t")
+            if token and head[-1:] in (b" ", b"\t") and b" " not in token and b"\t" not in token:
+                starts.append(start)
+                last = start
+    pieces = []
+    for start in starts:
+        end = data.find(b"\n", start)
+        pieces.append(data[start : len(data) if end < 0 else end + 1])
+    kept = b"".join(pieces)
+    # a comment line may stand where a term would: count statements, not lines
+    return Sifted(kept, _count_statements(data) - _count_statements(kept))
+
+
+_NOT_STATEMENT_STARTS = (b"\n#", b"\n\n", b"\n\r", b"\n ", b"\n\t")
+
+
+def _count_statements(data: bytes) -> int:
+    """Statements of a chunk of the subset: its lines, unless a line may be blank or a comment."""
+    if not data:
+        return 0
+    if data[:1] in (b" ", b"\t", b"#", b"\r", b"\n") or any(
+        s in data for s in _NOT_STATEMENT_STARTS
+    ):
+        from kgkit.ingest.lines import count_statements
+
+        return count_statements(data)
+    return data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
