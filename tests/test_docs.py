@@ -52,7 +52,9 @@ def _command_of(line: str) -> tuple[str, list[str]]:
     return name, sub_args
 
 
-LINES = {name: _code_lines(text) for name, text in [("README.md", README), *DOCS.items()]}
+#: page (README.md, docs/NAME.md) -> its kgkit command lines
+PAGES = {"README.md": README, **{f"docs/{name}": text for name, text in DOCS.items()}}
+LINES = {page: _code_lines(text) for page, text in PAGES.items()}
 ALL_LINES = [(page, line) for page, lines in LINES.items() for line in lines]
 
 
@@ -118,6 +120,7 @@ def test_every_option_is_named_in_the_command_reference(name):
 
 def test_the_docs_show_command_lines():
     assert len(ALL_LINES) > 2 * len(COMMANDS)
+    assert len(LINES["README.md"]) > 15  # the tour's examples
 
 
 @pytest.mark.parametrize("page", sorted(LINES))
@@ -131,34 +134,30 @@ def test_every_documented_command_line_parses(page):
     assert bad == []
 
 
-@pytest.mark.parametrize("page", ["README.md", *sorted(DOCS)])
+@pytest.mark.parametrize("page", sorted(PAGES))
 def test_every_link_between_pages_leads_to_a_file(page):
-    folder = ROOT if page == "README.md" else ROOT / "docs"
-    text = README if page == "README.md" else DOCS[page]
+    folder = (ROOT / page).parent
+    text = PAGES[page]
     targets = re.findall(r"\]\(([^)#\s]+)(?:#[^)]*)?\)", text)
     missing = [t for t in targets if "://" not in t and not (folder / t).exists()]
     assert missing == []
 
 
-def _quoted(text: str) -> list[str]:
+def _quoted(text: str, lang: str = "text") -> list[str]:
     return [
         line.strip()
-        for block in re.findall(r"```text\n(.*?)```", text, flags=re.S)
+        for block in re.findall(rf"```{lang}\n(.*?)```", text, flags=re.S)
         for line in block.splitlines()
         if line.strip() and line.strip() != "..."
     ]
 
 
-def test_the_demo_quotes_are_real_output(runner, tmp_path, monkeypatch):
-    # every line quoted from the demo (README's "What the demo shows" and docs/demo.md)
-    # is a line the demo really prints
-    section = README.split("\n## What the demo shows\n", 1)[1].split("\n## ", 1)[0]
-    quoted = _quoted(section) + _quoted(DOCS["demo.md"])
-    assert len(quoted) > 30
-    monkeypatch.chdir(tmp_path)  # the docs run it as `kgkit demo demo-workspace`
-    res = runner.invoke(cli, ["demo", "demo-workspace"])
-    assert res.exit_code == 0, res.output
-    printed = [line.strip() for line in res.output.splitlines()]
+#: Commands that only read; the docs' lines for them are run in the demo workspace.
+READ_ONLY = {"graphs", "query", "templates", "run", "show", "find", "tree", "verify", "diff"}
+READ_ONLY |= {"lint", "probe"}
+
+
+def _missing(quoted: list[str], printed: list[str]) -> list[str]:
     missing = []
     for line in quoted:
         if line.endswith("..."):  # shortened in the docs: the start must match
@@ -166,4 +165,43 @@ def test_the_demo_quotes_are_real_output(runner, tmp_path, monkeypatch):
                 missing.append(line)
         elif line not in printed:
             missing.append(line)
-    assert missing == []
+    return missing
+
+
+def test_quoted_output_is_real_output(runner, tmp_path, monkeypatch):
+    # every line the docs quote as output (README.md, docs/demo.md, docs/probe.md) is a
+    # line the demo, or a documented command run in the demo's workspace, really prints
+    monkeypatch.chdir(tmp_path)  # the docs run it as `kgkit demo demo-workspace`
+    res = runner.invoke(cli, ["demo", "demo-workspace"])
+    assert res.exit_code == 0, res.output
+    printed = [line.strip() for line in res.output.splitlines()]
+    section = README.split("\n## What the demo shows\n", 1)[1].split("\n## ", 1)[0]
+    demo_quotes = _quoted(section) + _quoted(DOCS["demo.md"])
+    assert len(demo_quotes) > 30
+    assert _missing(demo_quotes, printed) == []
+
+    monkeypatch.chdir(tmp_path / "demo-workspace")
+    ran = 0
+    for line in LINES["README.md"] + LINES["docs/probe.md"]:
+        args = shlex.split(line, comments=True)[1:]
+        if args and args[0] in READ_ONLY:
+            out = runner.invoke(cli, args)
+            ran += out.exit_code == 0
+            printed += [x.strip() for x in out.output.splitlines()]
+    assert ran >= 10
+    quoted = _quoted(README) + _quoted(DOCS["probe.md"])
+    assert _missing(quoted, printed) == []
+
+
+def test_quoted_lexicon_rows_are_real_rows(tmp_path, monkeypatch, runner):
+    monkeypatch.chdir(tmp_path)
+    assert runner.invoke(cli, ["demo", "demo-workspace"]).exit_code == 0
+    lexicon = tmp_path / "demo-workspace" / "vocab" / "tidewell" / "2.0.0" / "lexicon.tsv"
+    rows = lexicon.read_text(encoding="utf-8").splitlines()
+    quoted = [
+        line
+        for block in re.findall(r"```tsv\n(.*?)```", DOCS["lexicon.md"], flags=re.S)
+        for line in block.splitlines()
+    ]
+    assert len(quoted) > 2 and quoted[0] == rows[0]
+    assert [q for q in quoted if q not in rows] == []
