@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import pyoxigraph as ox
 
-from kgkit.errors import AmbiguousTermError, KgkitError
+from kgkit.errors import AmbiguousTermError, ArgumentError, KgkitError, NotFoundError
 from kgkit.query import Backend, run_query
 from kgkit.templates import bind_template, load_template, read_graphs, run_template
 
@@ -232,14 +232,14 @@ def resolve_term(backend: Backend, term: str, graphs: list[str] | None = None) -
         try:
             return ox.NamedNode(ws.expand(term, "term")).value
         except (KgkitError, ValueError) as exc:
-            raise KgkitError(f"{term!r} is not a valid IRI or CURIE ({exc})") from None
+            raise ArgumentError("term", f"{term!r} is not a valid IRI or CURIE ({exc})") from None
     found = _exact_label_matches(backend, term, graphs)
     how = "label"
     if not found:
         found = _code_matches(backend, term, graphs)
         how = "code"
     if not found:
-        raise KgkitError(f"no entity is labelled or coded {term!r}; try `kgkit find {term}`")
+        raise NotFoundError(f"no entity is labelled or coded {term!r}; try `kgkit find {term}`")
     if len(found) > 1:
         labels = labels_of(backend, found, graphs)
         parents = _parents_of(backend, found, graphs)
@@ -319,7 +319,7 @@ def show_entity(backend: Backend, term: str, graphs: list[str] | None = None) ->
             backend, f"ASK {{ {{ <{iri}> ?p ?o }} UNION {{ ?s ?p <{iri}> }} }}", graphs=graphs
         )
         if not ask.boolean:
-            raise KgkitError(f"{card.curie}: no statement in the graphs mentions it")
+            raise NotFoundError(f"{card.curie}: no statement in the graphs mentions it")
     return card
 
 
@@ -365,7 +365,7 @@ def find_entities(
     told apart.
     """
     if not text.strip():
-        raise KgkitError("give some text to look for")
+        raise ArgumentError("text", "give some text to look for")
     params = {"text": text, "match": "substring"}
     if language:
         params["lang"] = language
@@ -422,7 +422,7 @@ def tree_of(
     ``max_children`` children are shown under one entity, then a ``more`` line.
     """
     if depth < 0:
-        raise KgkitError("--depth must be 0 or more")
+        raise ArgumentError("depth", "must be 0 or more")
     root = resolve_term(backend, term, graphs)
     tpl = load_template(backend.ws, "descendants")
     text, _ = bind_template(tpl, {"root": f"<{root}>"}, backend.ws, read_graphs(backend, graphs))

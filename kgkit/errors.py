@@ -40,6 +40,7 @@ __all__ = [
     "AmbiguousTermError",
     "BuildFileError",
     "DemoError",
+    "DependencyError",
     "DiffError",
     "GateError",
     "LintTargetError",
@@ -115,7 +116,8 @@ class KgkitError(Exception):
 class ArgumentError(KgkitError):
     """A value given for a parameter is malformed or out of range.
 
-    ``str()`` gives ``PARAM: cause``; the command line shows the flag instead of ``PARAM``.
+    ``str()`` gives ``PARAM: cause``; the command line shows the flag instead of ``PARAM``
+    (and of the other parameters named in ``params`` that the cause mentions).
 
     >>> str(ArgumentError("batch_size", "must be at least 1"))
     'batch_size: must be at least 1'
@@ -123,9 +125,9 @@ class ArgumentError(KgkitError):
 
     exit_code = 2
 
-    def __init__(self, param: str, cause: str):
+    def __init__(self, param: str, cause: str, params: tuple[str, ...] = ()):
         self.param, self.cause = param, cause
-        super().__init__(f"{param}: {cause}", params=(param,))
+        super().__init__(f"{param}: {cause}", params=(param, *params))
 
 
 class InputError(KgkitError):
@@ -243,6 +245,10 @@ class ReviewError(InputError):
 
 class ProbeError(InputError):
     """A release folder or a text to probe cannot be read."""
+
+
+class DependencyError(KgkitError):
+    """An optional dependency a feature needs is not installed."""
 
 
 class DemoError(KgkitError):

@@ -23,7 +23,7 @@ import shlex
 from collections.abc import Callable
 from pathlib import Path
 
-from kgkit.errors import KgkitError, error_lines
+from kgkit.errors import KgkitError, ParameterError, error_lines
 from kgkit.query import FORMATS, Backend, run_query, tokenize, write_result
 from kgkit.templates import list_templates, run_template
 
@@ -185,7 +185,7 @@ class Shell:
                 for a in args[1:]:
                     key, eq, value = a.partition("=")
                     if not eq:
-                        raise KgkitError(f"parameter {a!r} is not key=value")
+                        raise ParameterError(f"parameter {a!r} is not key=value")
                     params[key] = value
                 self._show(run_template(self.backend, args[0], params, graphs=self.graphs))
             else:

@@ -73,7 +73,7 @@ def test_tree_marks(backend):
     assert (top.curie, top.below, top.label) == ("t:sport", 11, "sport")
     assert tree_of(backend, "t:sport", depth=0)[0].below == 11
     assert len(tree_of(backend, "t:sport", depth=0)) == 1
-    with pytest.raises(KgkitError, match="--depth"):
+    with pytest.raises(KgkitError, match="depth: must be 0 or more"):
         tree_of(backend, "t:sport", depth=-1)
 
 

@@ -41,12 +41,19 @@ def flag_name(param: click.Parameter) -> str:
 def flag_message(exc: KgkitError, params: list[click.Parameter]) -> str:
     """``str(exc)`` with each library parameter it names written as its flag.
 
-    ``batch_size`` becomes ``--batch-size`` and ``on_error='skip'`` ``--on-error skip``.
+    A message names a parameter as ``name: ...`` at its start or as ``name=value``:
+    ``batch_size: must be at least 1`` becomes ``--batch-size: must be at least 1``,
+    ``on_error='skip'`` becomes ``--on-error skip`` and ``allow_update=True`` (a flag)
+    ``--allow-update``.
     """
     text = str(exc)
     by_name = {}
     for p in params:
         by_name.setdefault(p.name, p)
+    for p in params:  # an option is also known by its long flag (--format: format)
+        for o in getattr(p, "opts", ()):
+            if o.startswith("--"):
+                by_name.setdefault(o[2:].replace("-", "_"), p)
     for name in exc.params:
         p = by_name.get(name)
         if p is None:
@@ -59,8 +66,10 @@ def flag_message(exc: KgkitError, params: list[click.Parameter]) -> str:
                 return flag
             return f"{flag} {value.strip(chr(39) + chr(34))}"
 
+        # "name: ..." at the start (an ArgumentError) and "name=value" anywhere
         text = re.sub(
-            rf"(?<![\w.-]){re.escape(name)}(?:=('[^']*'|\"[^\"]*\"|[^\s,;:)]+))?(?![\w-])",
+            rf"^{re.escape(name)}(?=: )|(?<![\w.-]){re.escape(name)}"
+            rf"=('[^']*'|\"[^\"]*\"|[^\s,;:)]+)",
             spell,
             text,
         )

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pyoxigraph as ox
 
-from kgkit.errors import KgkitError, one_line
+from kgkit.errors import ArgumentError, InputError, one_line
 from kgkit.ingest.sources import COMPRESSION_SUFFIXES
 
 __all__ = ["FORMATS", "LINE_BASED", "RDF_FORMATS", "detect_format"]
@@ -40,12 +40,14 @@ def detect_format(label: str, explicit: str | None = None) -> str:
     """
     if explicit:
         if explicit not in FORMATS:
-            raise KgkitError(
-                f"unknown format {one_line(repr(explicit))} (known: {', '.join(FORMATS)})"
+            raise ArgumentError(
+                "format", f"unknown format {one_line(repr(explicit))} (known: {', '.join(FORMATS)})"
             )
         return explicit
     if label == "-":
-        raise KgkitError("-: cannot tell the format of standard input; give --format")
+        raise InputError(
+            "-: cannot tell the format of standard input; give format=NAME", params=("format",)
+        )
     suffixes = [s.lower() for s in Path(label).suffixes]
     while suffixes and suffixes[-1] in COMPRESSION_SUFFIXES:
         suffixes.pop()
@@ -53,7 +55,8 @@ def detect_format(label: str, explicit: str | None = None) -> str:
         for name, exts in FORMATS.items():
             if suffixes[-1] in exts:
                 return name
-    raise KgkitError(
+    raise InputError(
         f"{one_line(label)}: cannot tell the format from the file name; "
-        f"give --format ({', '.join(FORMATS)})"
+        f"give format=NAME ({', '.join(FORMATS)})",
+        params=("format",),
     )

@@ -31,7 +31,7 @@ from pathlib import Path
 import pyoxigraph as ox
 
 import kgkit.ingest.lines as _lines
-from kgkit.errors import KgkitError, ParseError
+from kgkit.errors import ArgumentError, InputError, ParseError
 from kgkit.ingest.formats import LINE_BASED, detect_format
 from kgkit.ingest.lines import ChunkSpec, iter_byte_chunks, process_chunks
 from kgkit.ingest.loader import Progress, _Rejects
@@ -150,22 +150,24 @@ def slice_dump(
     """
     t0 = time.perf_counter()
     if not inputs:
-        raise KgkitError("nothing to slice: give one or more files, or - for standard input")
+        raise InputError("nothing to slice: give one or more files, or - for standard input")
     if on_error not in ("stop", "skip"):
-        raise KgkitError(f"--on-error takes 'stop' or 'skip', not {on_error!r}")
+        raise ArgumentError("on_error", f"takes 'stop' or 'skip', not {on_error!r}")
     formats = [detect_format(x, format) for x in inputs]
     for label, fmt in zip(inputs, formats, strict=True):
         if fmt not in LINE_BASED:
-            raise KgkitError(
+            raise InputError(
                 f"{label}: kgkit slice reads line-based formats (nt, nq, records), not {fmt}; "
                 "import it instead"
             )
         if label != "-" and not Path(label).is_file():
-            raise KgkitError(f"{label}: no such file")
+            raise InputError(f"{label}: no such file")
     if roots and "-" in inputs:
-        raise KgkitError("-: --roots reads the input twice, so it cannot come from standard input")
+        raise ArgumentError(
+            "roots", "reads the input twice, so the input cannot come from standard input"
+        )
     if engine not in ("local", "spark"):
-        raise KgkitError(f"--engine takes 'local' or 'spark', not {engine!r}")
+        raise ArgumentError("engine", f"takes 'local' or 'spark', not {engine!r}")
     if engine == "spark":
         from kgkit.ingest.slice_spark import SparkEngine
 
@@ -186,7 +188,7 @@ def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine,
     if roots:
         parents = frozenset(ws.profile["parent"])
         if not parents:
-            raise KgkitError("--roots needs parent predicates in the workspace profile")
+            raise ArgumentError("roots", "needs parent predicates in the workspace profile")
         closure = reachable_from(set(roots), _parent_edges(pairs, parents, ws, engine))
         summary.entities = len(closure)
         slice = replace(slice, subjects=frozenset(closure))

@@ -17,7 +17,7 @@ import contextlib
 import os
 import sys
 
-from kgkit.errors import KgkitError
+from kgkit.errors import DependencyError, InputError
 from kgkit.ingest.lines import ChunkSpec, process_chunk
 from kgkit.ingest.sources import COMPRESSION_SUFFIXES, detect_compression
 
@@ -52,8 +52,9 @@ class SparkEngine:
             from pyspark import SparkContext
             from pyspark.sql import SparkSession
         except ImportError:
-            raise KgkitError(
-                "--engine spark needs pyspark: pip install 'kgkit[spark]' (and Java)"
+            raise DependencyError(
+                "engine='spark' needs pyspark: pip install 'kgkit[spark]' (and Java)",
+                params=("engine",),
             ) from None
         for label in inputs:
             self._check(label)
@@ -76,21 +77,25 @@ class SparkEngine:
     @staticmethod
     def _check(label: str) -> None:
         if label == "-":
-            raise KgkitError("-: --engine spark reads files, not standard input")
+            raise InputError(
+                "-: engine='spark' reads files, not standard input", params=("engine",)
+            )
         with open(label, "rb") as fh:
             found = detect_compression(fh.read(8))
         suffix = os.path.splitext(label)[1].lower()
         named = _SPARK_CODECS.get(suffix, "none")
         if found != named:
             if found not in _SPARK_CODECS.values() and found != "none":
-                raise KgkitError(
-                    f"{label}: {found} data; --engine spark reads plain, gzip (.gz) or "
-                    "bzip2 (.bz2) files; use --engine local or recompress it"
+                raise InputError(
+                    f"{label}: {found} data; engine='spark' reads plain, gzip (.gz) or "
+                    "bzip2 (.bz2) files; use engine='local' or recompress it",
+                    params=("engine",),
                 )
             want = {v: k for k, v in COMPRESSION_SUFFIXES.items()}.get(found, "no suffix")
-            raise KgkitError(
+            raise InputError(
                 f"{label}: {found} data under a name Spark reads as {named}; "
-                f"name it with {want} for --engine spark"
+                f"name it with {want} for engine='spark'",
+                params=("engine",),
             )
 
     @contextlib.contextmanager

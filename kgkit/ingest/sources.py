@@ -27,7 +27,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO
 
-from kgkit.errors import KgkitError, one_line
+from kgkit.errors import InputError, KgkitError, one_line
 
 __all__ = [
     "COMPRESSION_SUFFIXES",
@@ -363,11 +363,11 @@ def open_source(name: str | os.PathLike, *, lone_cr: bool = False) -> Source:
         try:
             raw = open(path, "rb")  # noqa: SIM115 - closed by Source.close
         except OSError as exc:
-            raise KgkitError(f"{shown}: {_why(exc)}") from None
+            raise InputError(f"{shown}: {_why(exc)}") from None
         st = os.fstat(raw.fileno())
         if not (stat.S_ISREG(st.st_mode) or stat.S_ISFIFO(st.st_mode)):
             raw.close()
-            raise KgkitError(f"{shown}: {_kind(st.st_mode)}, not a file")
+            raise InputError(f"{shown}: {_kind(st.st_mode)}, not a file")
         size = st.st_size if stat.S_ISREG(st.st_mode) else None
     hasher = _HashingReader(raw)
     buffered = io.BufferedReader(hasher, buffer_size=1 << 20)
@@ -412,8 +412,8 @@ def check_input(label: str) -> None:
     try:
         st = os.stat(label)
     except OSError as exc:
-        raise KgkitError(f"{shown}: {_why(exc)}") from None
+        raise InputError(f"{shown}: {_why(exc)}") from None
     if not (stat.S_ISREG(st.st_mode) or stat.S_ISFIFO(st.st_mode)):
-        raise KgkitError(f"{shown}: {_kind(st.st_mode)}, not a file")
+        raise InputError(f"{shown}: {_kind(st.st_mode)}, not a file")
     if not os.access(label, os.R_OK):
-        raise KgkitError(f"{shown}: permission denied (cannot read it)")
+        raise InputError(f"{shown}: permission denied (cannot read it)")

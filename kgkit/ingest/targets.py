@@ -14,7 +14,7 @@ import stat
 from collections.abc import Iterable
 from pathlib import Path
 
-from kgkit.errors import KgkitError, one_line
+from kgkit.errors import InputError, one_line
 
 __all__ = ["check_target", "replace_file"]
 
@@ -48,7 +48,7 @@ def check_target(
     except FileNotFoundError:
         st = None
     except OSError as exc:
-        raise KgkitError(f"{shown}: cannot be written ({exc.strerror})") from None
+        raise InputError(f"{shown}: cannot be written ({exc.strerror})") from None
     if st is not None and not stat.S_ISREG(st.st_mode):
         kind = (
             "a folder"
@@ -59,23 +59,23 @@ def check_target(
             if stat.S_ISCHR(st.st_mode) or stat.S_ISBLK(st.st_mode)
             else "not a regular file"
         )
-        raise KgkitError(f"{shown}: is {kind}; kgkit replaces only regular files")
+        raise InputError(f"{shown}: is {kind}; kgkit replaces only regular files")
     for label in inputs:
         if label != "-" and _same(path, Path(label)):
-            raise KgkitError(f"{shown}: is one of the inputs; choose another path")
+            raise InputError(f"{shown}: is one of the inputs; choose another path")
     if workspace_file is not None and _same(path, workspace_file):
-        raise KgkitError(f"{shown}: is the workspace file; choose another path")
+        raise InputError(f"{shown}: is the workspace file; choose another path")
     if store is not None and (
         _inside(path, store) or _same(path, store.with_name(store.name + ".lock"))
     ):
-        raise KgkitError(f"{shown}: is inside the store; choose another path")
+        raise InputError(f"{shown}: is inside the store; choose another path")
     folder = path.parent
     while not folder.exists() and folder != folder.parent:
         folder = folder.parent
     if not folder.is_dir():
-        raise KgkitError(f"{shown}: {one_line(str(folder))} is not a folder")
+        raise InputError(f"{shown}: {one_line(str(folder))} is not a folder")
     if not os.access(folder, os.W_OK | os.X_OK):
-        raise KgkitError(f"{shown}: cannot write in folder {one_line(str(folder))}")
+        raise InputError(f"{shown}: cannot write in folder {one_line(str(folder))}")
 
 
 def _umask() -> int:
