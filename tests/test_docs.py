@@ -23,6 +23,7 @@ def _code_lines(text: str) -> list[str]:
     """The lines of the shell code blocks that run kgkit (after a pipe, too)."""
     out = []
     for block in re.findall(r"```(?:bash|sh|shell)\n(.*?)```", text, flags=re.S):
+        block = re.sub(r"\\\n\s*", " ", block)  # continued lines
         for line in block.splitlines():
             for part in line.split("|"):
                 part = part.strip()
