@@ -144,7 +144,14 @@ class ParseError(InputError):
     ``str()`` gives ``FILE:LINE:COLUMN: cause``.
     """
 
-    def __init__(self, file: str, line: int | None, column: int | None, cause: str):
+    def __init__(
+        self,
+        file: str,
+        line: int | None,
+        column: int | None,
+        cause: str,
+        params: tuple[str, ...] = (),
+    ):
         self.file, self.line, self.column, self.cause = file, line, column, cause
         where = file
         if line is not None:
@@ -152,7 +159,7 @@ class ParseError(InputError):
             if column is not None:
                 where += f":{column}"
         # one line whatever the input held (the cause often quotes it)
-        super().__init__(one_line(f"{where}: {cause}"))
+        super().__init__(one_line(f"{where}: {cause}"), params=params)
 
 
 class RecordError(InputError):

@@ -87,7 +87,7 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
     assert r.exit_code == 1
     assert r.output == (
         "Error: no topic changed since release 2.0.0; nothing to release "
-        "(pass --version to release anyway)\n"
+        "(give --as-version X.Y.Z to release anyway)\n"
     )
     r = kgkit("release", str(spec), "--as-version", "2.0")
     assert r.exit_code == 1 and "is not a release version" in r.output

@@ -381,3 +381,19 @@ def test_unwritable_store_lock_is_one_line(open_workspace):
     r = _run_unprivileged(["query", "ASK { ?s ?p ?o }"], open_workspace.root)
     assert r.returncode == 1
     assert r.stderr.splitlines() == [f"Error: {lock}: permission denied"], r.stderr
+
+
+def test_release_version_over_4300_digits_is_one_line():
+    from kgkit.errors import VersionError
+    from kgkit.release.versioning import Version
+
+    with pytest.raises(VersionError) as err:
+        Version.parse("1.2." + HUGE)
+    assert "is not a release version" in str(err.value) and len(str(err.value)) < 200
+
+
+def test_parse_error_hint_names_the_flag_on_the_command_line(kgkit, tmp_path):
+    bad = tmp_path / "bad.nt"
+    bad.write_text("<http://example.org/a> <http://example.org/b> .\n", encoding="utf-8")
+    r = kgkit("import", str(bad), "--graph", "g")
+    assert one_error_line(r).endswith("; run with --on-error skip to set bad statements aside")

@@ -212,8 +212,8 @@ def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine,
                 for res in results:
                     for line, col, cause, text in res.rejects:
                         if on_error != "skip":
-                            hint = "; run with --on-error skip to set bad statements aside"
-                            raise ParseError(label, line, col, cause + hint)
+                            hint = "; run with on_error='skip' to set bad statements aside"
+                            raise ParseError(label, line, col, cause + hint, params=("on_error",))
                         bad.add(label, line, col, cause, text)
                         summary.rejected += 1
                     summary.read += res.read

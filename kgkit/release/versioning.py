@@ -43,7 +43,8 @@ __all__ = [
     "temp_prefix",
 ]
 
-_SEMVER = re.compile(r"^(0|[1-9]\d*)\.(0|[1-9]\d*)\.(0|[1-9]\d*)$")
+# at most 18 digits a part: numbers stay bounded (Python refuses to convert over 4,300)
+_SEMVER = re.compile(r"^(0|[1-9]\d{0,17})\.(0|[1-9]\d{0,17})\.(0|[1-9]\d{0,17})$")
 
 #: change kind (see kgkit.release.diffing) -> the part of the version it bumps
 LEVEL_OF_KIND = {
@@ -72,8 +73,10 @@ class Version:
     def parse(cls, text: str) -> Version:
         m = _SEMVER.match(text.strip()) if isinstance(text, str) else None
         if not m:
+            shown = repr(text) if len(str(text)) <= 60 else repr(str(text)[:60]) + "..."
             raise VersionError(
-                f"{text!r} is not a release version (three numbers such as 1.2.0, no leading zeros)"
+                f"{shown} is not a release version "
+                "(three numbers such as 1.2.0, no leading zeros, at most 18 digits each)"
             )
         return cls(*(int(x) for x in m.groups()))
 
@@ -131,7 +134,8 @@ def next_version(
     if level is None:
         raise NothingChangedError(
             f"no topic changed since release {previous}; nothing to release "
-            "(pass --version to release anyway)"
+            "(give version=X.Y.Z to release anyway)",
+            params=("version",),
         )
     return bump(previous, level), level
 
