@@ -5,7 +5,7 @@ profile, measures in fresh subprocesses, in one run:
 
 - floor: open the file through kgkit's reader (gzip), read 1 MB blocks, split them into
   lines, nothing else: no slicer can be faster than this on one core;
-- ``kgkit slice --keep profile --languages en,de`` with ``--jobs 1`` and ``--jobs 2``.
+- ``kgkit slice --scope profile --literal-languages en,de`` with ``--jobs 1`` and ``--jobs 2``.
 
 Prints the throughput of each and the ratios, then an extrapolation (not a measurement) of
 the wall time to slice a 10-billion-statement dump: on one 2-core machine at the measured
@@ -26,6 +26,7 @@ import gzip
 import json
 import os
 import shutil
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -60,7 +61,7 @@ def _worker(mode: str, dump: str, where: str) -> None:
         from kgkit.workspace import init_workspace
 
         ws = init_workspace(where)
-        sl = make_slice(ws, keep="profile", languages=["en", "de"])
+        sl = make_slice(ws, scope="profile", literal_languages=["en", "de"])
         t0 = time.perf_counter()
         engine, jobs = mode.split("=")
         s = slice_dump(
@@ -98,6 +99,7 @@ def main(argv: list[str] | None = None) -> int:
         action="store_true",
         help="also --engine spark in local mode, 2 cores (needs the spark extra and Java)",
     )
+    ap.add_argument("--rounds", type=int, default=3, help="alternating rounds (medians)")
     ap.add_argument("--worker", nargs=3, help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     if args.worker:
@@ -117,27 +119,42 @@ def main(argv: list[str] | None = None) -> int:
         (OUT / f"slice-{triples}.json").write_text(json.dumps(counts))
     counts = json.loads((OUT / f"slice-{triples}.json").read_text())
     n = counts["triples"]
-    load = os.getloadavg()[0]
-    rows = {}
     if args.spark and not plain.is_file():
         # Hadoop cannot split a gzip file: Spark gets the same dump uncompressed
         with gzip.open(dump, "rb") as src, open(plain, "wb") as dst:
             shutil.copyfileobj(src, dst, 1 << 20)
-    for mode in ("floor", "jobs=1", "jobs=2", *(("spark=2",) if args.spark else ())):
-        r = _measure(mode, plain if mode.startswith("spark") else dump)
-        r["throughput"] = n / r["seconds"]
-        rows[mode] = r
-        print(
-            f"  {mode:<7} {r['seconds']:7.2f} s  {r['throughput']:>10,.0f} statements/s",
-            file=sys.stderr,
+    modes = ("floor", "jobs=1", "jobs=2", *(("spark=2",) if args.spark else ()))
+    runs: dict[str, list[dict]] = {m: [] for m in modes}
+    loads = []
+    for rnd in range(args.rounds):
+        loads.append(os.getloadavg()[0])
+        for mode in modes:
+            r = _measure(mode, plain if mode.startswith("spark") else dump)
+            r["throughput"] = n / r["seconds"]
+            runs[mode].append(r)
+            print(
+                f"  round {rnd + 1} {mode:<7} {r['seconds']:7.2f} s "
+                f"{r['throughput']:>10,.0f} statements/s  (load {os.getloadavg()[0]:.1f})",
+                file=sys.stderr,
+            )
+    rows = {}
+    for mode in modes:
+        rs = sorted(runs[mode], key=lambda r: r["seconds"])
+        r = dict(rs[len(rs) // 2])
+        r["vs_floor"] = statistics.median(
+            fl["seconds"] / x["seconds"] for fl, x in zip(runs["floor"], runs[mode], strict=True)
         )
+        rows[mode] = r
+    load = statistics.median(loads)
     per_core = rows["jobs=1"]["throughput"]
     two_core = rows["jobs=2"]["throughput"]
     print()
     print(
-        f"dump: {n:,} statements, {dump.stat().st_size / 1e6:,.0f} MB gzip; load average {load:.1f}"
+        f"dump: {n:,} statements, {dump.stat().st_size / 1e6:,.0f} MB gzip; "
+        f"load average {load:.1f} (median of the rounds' starts)"
     )
     print()
+    print(f"{args.rounds} alternating rounds; medians; ratios paired within each round")
     print("| run | seconds | statements/s | vs floor |")
     print("|---|---:|---:|---:|")
     for mode, r in rows.items():
@@ -147,7 +164,7 @@ def main(argv: list[str] | None = None) -> int:
             "jobs=2": "kgkit slice --jobs 2",
             "spark=2": "kgkit slice --engine spark, local[2], uncompressed (with session start)",
         }[mode]
-        vs = r["throughput"] / rows["floor"]["throughput"]
+        vs = r["vs_floor"]
         print(f"| {name} | {r['seconds']:.2f} | {r['throughput']:,.0f} | {vs:.2f} |")
     print()
     print("| 10 billion statements (extrapolated) | hours |")
@@ -158,7 +175,11 @@ def main(argv: list[str] | None = None) -> int:
         hours = TEN_BILLION / rate / 3600
         print(f"| {executors} executors x 4 cores at the measured per-core rate | {hours:,.2f} |")
     (OUT / "slice_bench.json").write_text(
-        json.dumps({"statements": n, "load_average": load, "runs": rows}, indent=2, sort_keys=True)
+        json.dumps(
+            {"statements": n, "load_average": load, "medians": rows, "runs": runs},
+            indent=2,
+            sort_keys=True,
+        )
         + "\n"
     )
     return 0
