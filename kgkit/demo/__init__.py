@@ -11,7 +11,10 @@ with the same library functions the commands call:
 5. probe the corpus and turn the too-common aliases into curation edits, add a
    few hand edits;
 6. import the refreshed dump, compile and release again, with its changelog;
-7. write the review page, and probe one article.
+7. write the review page, and probe one article;
+8. list the names several topics share, turn on the lexicon rules (plural forms,
+   common words) and settle one shared name with a curation edit; probe a
+   sentence with plurals and an everyday phrase.
 """
 
 from __future__ import annotations
@@ -33,6 +36,7 @@ from kgkit.report import write_page
 from kgkit.templates import run_template
 from kgkit.vocab.compile import compile_vocabulary
 from kgkit.vocab.curation import load_curation
+from kgkit.worklist import list_shared_names
 from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
 
 __all__ = ["DemoStep", "DemoError", "iter_demo", "run_demo", "SPEC_NAME"]
@@ -129,6 +133,81 @@ def _explore(ws) -> DemoStep:
 
 def _topline(path: Path, n: int) -> list[str]:
     return path.read_text(encoding="utf-8").splitlines()[:n]
+
+
+#: the lexicon rules the demo turns on after release 2 (see docs/lexicon.md)
+LEXICON_RULES = "  inflected_forms: [en]\n  common_words: {min_zipf: 4.5}\n"
+#: the curation edit that settles the name two topics share
+SETTLE_EDIT = (
+    "  - settle: {name: netting, keep: [net-mending]}\n"
+    "    note: the crafts desk's word; crop netting goes by its full name\n"
+)
+#: a sentence of our own with plurals and an everyday phrase
+RULES_SENTENCE = (
+    "At the Fallowwick regattas the crews kept going about, "
+    "and the stalls sold crab salads and oak carvings."
+)
+
+
+_KIND_WORDS = {"preferred": "preferred label", "inflected": "plural form"}
+
+
+def _shared_lines(names, n: int = 3) -> list[str]:
+    out = []
+    for x in names[:n]:
+        label = "preferred label" if x.preferred_by else "alias"
+        out.append(
+            f"  {x.key!r}: {len(x.topics)} topics ({', '.join(x.topics)}), {label}, "
+            f"Zipf {x.zipf or 0:.2f}"
+        )
+    return out
+
+
+def _lexicon_rules(ws, spec: Path, curation: Path, release: Path) -> Iterator[DemoStep]:
+    """The lexicon rules on the demo: the worklist, plurals, common words, a settled name."""
+    shared = list_shared_names(release)
+    yield DemoStep(
+        f"listed the names several topics share in release {release.name} (riskiest first)",
+        [f"{len(shared)} shared names", *_shared_lines(shared)],
+        [],
+    )
+    text = spec.read_text(encoding="utf-8")
+    text = text.replace("  stop: [other, misc]\n", "  stop: [other, misc]\n" + LEXICON_RULES, 1)
+    spec.write_text(text, encoding="utf-8")
+    curation.write_text(curation.read_text(encoding="utf-8") + SETTLE_EDIT, encoding="utf-8")
+    result = compile_vocabulary(ws, spec)
+    report, counts = result.report, result.report["counts"]
+    common = report.get("common_words") or []
+    lines = [
+        f"plural forms added to the lexicon: {counts['inflected_forms']}",
+        f"common words (Zipf 4.5 or more): {len(common)}, the most frequent:",
+        *(
+            f"  {c['alias']!r} ({c['language']}) Zipf {c['zipf']:.2f}, "
+            f"{' and '.join(_KIND_WORDS.get(k, k) for k in c['kinds'])} of "
+            f"{', '.join(c['topics'])}"
+            for c in common[:3]
+        ),
+    ]
+    for d in report["dropped_aliases"]:
+        if d["reason"].startswith("settled-by-curation"):
+            lines.append(f"settled {d['alias']!r}: kept by net-mending, taken from {d['topic']}")
+    left = list_shared_names(result.output)
+    lines.append(f"shared names left in the build: {len(left)}")
+    yield DemoStep(
+        "turned on plural forms and common words, and settled 'netting' by a curation edit",
+        lines,
+        [spec, curation, result.output],
+    )
+    lexicon = load_lexicon(result.output)
+    by_key = {c["alias"].casefold(): c for c in common}
+    lines = [RULES_SENTENCE]
+    for h in lexicon.find(RULES_SENTENCE):
+        rows = lexicon.by_key[h.key]
+        made = [r for r in rows if r.source]
+        how = f"plural of {made[0].source!r}" if made else rows[0].kind
+        risk = f"  common word, Zipf {by_key[h.key]['zipf']:.2f}" if h.key in by_key else ""
+        lines.append(f"  {h.text!r} -> {', '.join(c.topic for c in h.candidates)} ({how}){risk}")
+    yield DemoStep("probed a sentence with the new build", lines, [])
 
 
 def run_demo(directory: Path) -> list[DemoStep]:
@@ -273,3 +352,5 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
         mark = "  ambiguous" if h.is_ambiguous else ""
         lines.append(f"[{h.start}:{h.end}] {h.text!r} -> {cands}{mark}")
     yield DemoStep(f"probed {article.name} with release {second.version}", lines, [])
+
+    yield from _lexicon_rules(ws, spec, curation, Path(second.path))

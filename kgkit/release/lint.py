@@ -154,6 +154,25 @@ def _finding(name: str, subjects, message: str) -> Finding:
     return Finding(name, tuple(sorted(str(s) for s in subjects)), message, c.level, c.summary)
 
 
+def _namer(schemes: set[str]):
+    """Short names for messages: an IRI inside the namespace of a concept scheme shows as
+    the rest of it (in kgkit's own files, the topic id); any other IRI in full. Findings
+    keep full IRIs in ``subjects``."""
+    bases = set()
+    for s in schemes:
+        bases |= {s} if s.endswith(("/", "#")) else {s + "/", s + "#"}
+    ordered = sorted(bases, key=len, reverse=True)
+
+    def name(node) -> str:
+        text = str(node)
+        for base in ordered:
+            if text.startswith(base) and len(text) > len(base):
+                return text[len(base) :]
+        return text
+
+    return name
+
+
 def _is_unprintable(ch: str) -> bool:
     # Zero-width (non-)joiners are format characters that scripts such as Persian
     # and Devanagari need in ordinary words; every other format character is invisible.
@@ -206,6 +225,10 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
         s_ for s_, o in pairs(OWL.deprecated) if str(o).lower() == "true" and s_ in concepts
     }
     live = concepts - deprecated
+    schemes_named = {str(s_) for s_ in typed[SKOS.ConceptScheme]}
+    schemes_named |= {str(o) for _, o in pairs(SKOS.inScheme)}
+    schemes_named |= {str(sc) for _, sc in top_of} | {str(sc) for sc, _ in has_top}
+    name = _namer(schemes_named)
     out: list[Finding] = []
 
     # hierarchy: child -> parent edges from broader and from narrower
@@ -215,7 +238,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     tree.add_edges_from((c, p) for p, c in narrower)
     for comp in nx.strongly_connected_components(tree):
         if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
-            names = ", ".join(sorted(str(n) for n in comp))
+            names = ", ".join(sorted(name(n) for n in comp))
             out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
     # SKOS S27: a related pair where one concept is above the other (either way round,
     # since skos:related is symmetric)
@@ -228,7 +251,8 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                     _finding(
                         "related-to-ancestor",
                         [low, high],
-                        f"{low} is related to {high}, which is above it in the hierarchy",
+                        f"{name(low)} is related to {name(high)}, "
+                        "which is above it in the hierarchy",
                     )
                 )
 
@@ -237,7 +261,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     for c in sorted(concepts, key=str):
         labels = labels_of[c] if c in labels_of else {k: [] for k in kinds}
         if not labels["preferred"]:
-            out.append(_finding("no-preferred-label", [c], f"{c} has no preferred label"))
+            out.append(_finding("no-preferred-label", [c], f"{name(c)} has no preferred label"))
         by_lang = defaultdict(set)
         for lit in labels["preferred"]:
             by_lang[_lang(lit)].add(str(lit))
@@ -248,7 +272,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                     _finding(
                         "two-preferred-labels",
                         [c],
-                        f"{c} has {len(texts)} preferred labels in "
+                        f"{name(c)} has {len(texts)} preferred labels in "
                         f"{lang or 'no language'}: {shown}",
                     )
                 )
@@ -257,7 +281,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
             for lit in sorted(lits, key=str):
                 text = str(lit)
                 if not text.strip():
-                    out.append(_finding("blank-label", [c], f"{c} has an empty {kind} label"))
+                    out.append(_finding("blank-label", [c], f"{name(c)} has an empty {kind} label"))
                     continue
                 bad = (
                     []  # str.isprintable() is False for every character we flag
@@ -269,7 +293,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                         _finding(
                             "control-character-in-label",
                             [c],
-                            f"{kind} label {text!r} of {c} holds {', '.join(bad)}",
+                            f"{kind} label {text!r} of {name(c)} holds {', '.join(bad)}",
                         )
                     )
                 key = (text, _lang(lit))
@@ -278,7 +302,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                         _finding(
                             "label-kind-clash",
                             [c],
-                            f"{text!r} is both the {seen[key]} and the {kind} label of {c}",
+                            f"{text!r} is both the {seen[key]} and the {kind} label of {name(c)}",
                         )
                     )
                 seen.setdefault(key, kind)
@@ -286,7 +310,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                     shared[(match_key(text), _lang(lit))].add(c)
     for (key, lang), owners in sorted(shared.items()):
         if len(owners) > 1:
-            names = ", ".join(sorted(str(o) for o in owners))
+            names = ", ".join(sorted(name(o) for o in owners))
             out.append(
                 _finding(
                     "shared-label",
@@ -310,7 +334,7 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
                 _finding(
                     "language-gap",
                     [c],
-                    f"{c} has no preferred label in {', '.join(missing)}",
+                    f"{name(c)} has no preferred label in {', '.join(missing)}",
                 )
             )
 
@@ -322,12 +346,14 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
     for c in sorted(live, key=str):
         if links.degree(c) == 0:
             out.append(
-                _finding("unlinked-concept", [c], f"{c} has no broader, narrower or related link")
+                _finding(
+                    "unlinked-concept", [c], f"{name(c)} has no broader, narrower or related link"
+                )
             )
     groups = [comp for comp in nx.connected_components(links) if len(comp) > 1]
     if len(groups) > 1:
         groups.sort(key=lambda comp: (-len(comp), min(str(n) for n in comp)))
-        desc = "; ".join(f"{len(comp)} around {min(str(n) for n in comp)}" for comp in groups)
+        desc = "; ".join(f"{len(comp)} around {name(min(comp, key=str))}" for comp in groups)
         out.append(
             _finding(
                 "split-hierarchy",
@@ -351,13 +377,13 @@ def lint_graph(g: rdflib.Graph, target: str = "<graph>") -> LintReport:
             )
     for sc in sorted(tops, key=str):
         for c in sorted(tops[sc], key=str):
-            parents = sorted(str(p) for p in tree.successors(c)) if c in tree else []
+            parents = sorted(name(p) for p in tree.successors(c)) if c in tree else []
             if c in live and parents:
                 out.append(
                     _finding(
                         "top-concept-with-parent",
                         [c],
-                        f"top concept {c} of {sc} has broader {', '.join(parents)}",
+                        f"top concept {name(c)} of {sc} has broader {', '.join(parents)}",
                     )
                 )
 
