@@ -21,6 +21,7 @@ from __future__ import annotations
 import contextlib
 import gzip
 import os
+import shutil
 import tempfile
 import time
 from collections import defaultdict
@@ -136,6 +137,7 @@ def slice_dump(
     progress: Callable[[Progress], None] | None = None,
     engine: str = "local",
     spark_master: str | None = None,
+    pieces: bool = False,
 ) -> SliceSummary:
     """Write the statements of ``inputs`` that ``slice`` keeps to the N-Triples file ``output``.
 
@@ -146,7 +148,10 @@ def slice_dump(
 
     ``engine="spark"`` parses and slices on Apache Spark (``spark_master``, default
     ``local[jobs]``; needs the ``spark`` extra) and writes the same bytes as the local
-    engine.
+    engine. With ``pieces`` (Spark only), ``output`` is a new folder and the executors write
+    the slice into it themselves as numbered pieces (:func:`kgkit.ingest.slice_spark.piece_name`)
+    that, concatenated in order, are the one file's bytes; the folder must be one every
+    executor can reach.
     """
     t0 = time.perf_counter()
     if not inputs:
@@ -168,6 +173,12 @@ def slice_dump(
         )
     if engine not in ("local", "spark"):
         raise ArgumentError("engine", f"takes 'local' or 'spark', not {engine!r}")
+    if pieces and engine != "spark":
+        raise ArgumentError("pieces", "needs engine='spark' (its executors write the pieces)")
+    if pieces and Path(output).suffix == ".gz":
+        raise ArgumentError("pieces", f"{output}: pieces are plain N-Triples; name a folder")
+    if pieces and os.path.lexists(output):
+        raise InputError(f"{output}: exists already; pieces go into a new folder")
     if engine == "spark":
         from kgkit.ingest.slice_spark import SparkEngine
 
@@ -176,13 +187,26 @@ def slice_dump(
         runner = _LocalEngine(jobs)
     try:
         return _slice(
-            ws, inputs, formats, Path(output), slice, roots, on_error, rejects, runner, progress, t0
+            ws,
+            inputs,
+            formats,
+            Path(output),
+            slice,
+            roots,
+            on_error,
+            rejects,
+            runner,
+            progress,
+            t0,
+            pieces,
         )
     finally:
         runner.close()
 
 
-def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine, progress, t0):
+def _slice(
+    ws, inputs, formats, output, slice, roots, on_error, rejects, engine, progress, t0, pieces
+):
     summary = SliceSummary(output=str(output), files=list(inputs))
     pairs = list(zip(inputs, formats, strict=True))
     if roots:
@@ -196,6 +220,41 @@ def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine,
         rejects = output.with_name(output.name + ".rejects.txt")
     bad = _Rejects(rejects if on_error == "skip" else None)
     output.parent.mkdir(parents=True, exist_ok=True)
+
+    def take(label: str, res) -> None:
+        for line, col, cause, text in res.rejects:
+            if on_error != "skip":
+                hint = "; run with on_error='skip' to set bad statements aside"
+                raise ParseError(label, line, col, cause + hint, params=("on_error",))
+            bad.add(label, line, col, cause, text)
+            summary.rejected += 1
+        summary.read += res.read
+        summary.filtered += res.filtered
+        summary.written += res.kept
+
+    if pieces:
+        folder = Path(tempfile.mkdtemp(prefix=".slice-pieces-", dir=output.parent))
+        try:
+            start = 0
+            for n, (label, fmt) in enumerate(pairs, 1):
+                spec = ChunkSpec(
+                    fmt, slice, ws if fmt == "records" else None, raw_ok=False, blank_scope=f"f{n}x"
+                )
+                results, written = engine.write_pieces(label, spec, folder, start)
+                for res in results:
+                    take(label, res)
+                start += written
+            summary.read += summary.rejected
+            os.chmod(folder, 0o755)
+            os.rename(folder, output)
+        except BaseException:
+            bad.abort()
+            shutil.rmtree(folder, ignore_errors=True)
+            raise
+        summary.rejects = bad.commit()
+        summary.seconds = time.perf_counter() - t0
+        return summary
+
     fd, tmp = tempfile.mkstemp(prefix=".slice-", dir=output.parent)
     raw = os.fdopen(fd, "wb")
     out = gzip.GzipFile(fileobj=raw, mode="wb", mtime=0) if output.suffix == ".gz" else raw
@@ -210,15 +269,7 @@ def _slice(ws, inputs, formats, output, slice, roots, on_error, rejects, engine,
             )
             with engine.results(label, spec, progress, lambda: summary.read) as (results, tick):
                 for res in results:
-                    for line, col, cause, text in res.rejects:
-                        if on_error != "skip":
-                            hint = "; run with on_error='skip' to set bad statements aside"
-                            raise ParseError(label, line, col, cause + hint, params=("on_error",))
-                        bad.add(label, line, col, cause, text)
-                        summary.rejected += 1
-                    summary.read += res.read
-                    summary.filtered += res.filtered
-                    summary.written += res.kept
+                    take(label, res)
                     out.write(res.text)
                     tick()
         summary.read += summary.rejected

@@ -7,8 +7,18 @@ local engine's own code, on runs of consecutive lines in each partition. The dri
 receives the results in line order and writes them as the local engine does, so both
 engines write the same bytes for the same input.
 
+With ``pieces`` (:meth:`SparkEngine.write_pieces`), each partition's executor writes its
+kept statements itself, to ``piece-NNNNN.nt`` in a folder every executor can reach, and
+only the counts and the rejected lines travel back to the driver: the driver's memory then
+does not bound the slice. The pieces, concatenated in the order of their numbers, are the
+bytes the local engine writes to one file.
+
 A line ends at ``\\n``, ``\\r\\n`` or (Hadoop's reader) a lone ``\\r``; the local engine
 splits only at ``\\n``, so a file with lone carriage returns is numbered differently.
+
+The executors' Python is this interpreter (the ``spark.pyspark.python`` setting of a session
+the engine starts; the process environment is left as it was). A session started elsewhere
+must have been given a Python with kgkit too.
 """
 
 from __future__ import annotations
@@ -16,16 +26,26 @@ from __future__ import annotations
 import contextlib
 import os
 import sys
+from pathlib import Path
 
 from kgkit.errors import DependencyError, InputError
 from kgkit.ingest.lines import ChunkSpec, process_chunk
 from kgkit.ingest.sources import COMPRESSION_SUFFIXES, detect_compression
 
-__all__ = ["SparkEngine"]
+__all__ = ["SparkEngine", "piece_name"]
 
 _LINES_PER_CHUNK = 20_000
 # what Hadoop's textFile decompresses, told by the file name
 _SPARK_CODECS = {".gz": "gzip", ".bz2": "bzip2"}
+
+
+def piece_name(number: int) -> str:
+    """File name of piece ``number`` of a slice written in pieces.
+
+    >>> piece_name(7)
+    'piece-00007.nt'
+    """
+    return f"piece-{number:05d}.nt"
 
 
 def _partition(spec: ChunkSpec):
@@ -58,9 +78,6 @@ class SparkEngine:
             ) from None
         for label in inputs:
             self._check(label)
-        # the executors' Python workers run this interpreter (kgkit is importable there);
-        # a session started elsewhere must have been given one with kgkit too
-        os.environ.setdefault("PYSPARK_PYTHON", sys.executable)
         self._owned = SparkContext._active_spark_context is None
         builder = SparkSession.builder.appName("kgkit-slice")
         if self._owned:
@@ -69,6 +86,8 @@ class SparkEngine:
                 .config("spark.ui.enabled", "false")
                 .config("spark.driver.bindAddress", "127.0.0.1")
                 .config("spark.driver.host", "127.0.0.1")
+                # the executors' Python workers run this interpreter (kgkit importable)
+                .config("spark.pyspark.python", sys.executable)
             )
         self.spark = builder.getOrCreate()
         if self._owned:
@@ -112,6 +131,29 @@ class SparkEngine:
             yield results.toLocalIterator(), lambda: None
         finally:
             results.unpersist()
+
+    def write_pieces(self, label: str, spec: ChunkSpec, folder: Path, start: int) -> list:
+        """Slice ``label`` with each partition's kept statements written by its executor to
+        ``folder / piece_name(start + partition)``.
+
+        Returns the chunk results in line order, their ``text`` emptied (it is in the
+        pieces), and the number of pieces written as ``(results, pieces)``.
+        """
+        sc = self.spark.sparkContext
+        rdd = sc.textFile(os.path.abspath(label), use_unicode=False).zipWithIndex()
+        where = os.path.abspath(folder)
+        chunks = _partition(spec)
+
+        def run(index, items):
+            # a retried task writes its piece again from the start
+            with open(os.path.join(where, piece_name(start + index)), "wb") as fh:
+                for res in chunks(items):
+                    fh.write(res.text)
+                    res.text = b""
+                    yield res
+
+        results = rdd.mapPartitionsWithIndex(run).collect()  # counts and rejects only
+        return results, rdd.getNumPartitions()
 
     def close(self) -> None:
         if self._owned:
