@@ -6,6 +6,12 @@ Tidewell sports data); the tests at the end run a real compile and release.
 
 from __future__ import annotations
 
+import json
+
+import pytest
+from test_release import CURATION, SPEC, TOPICS_1, dump, setup
+
+from kgkit.errors import ArgumentError, GateError
 from kgkit.release.gates import (
     GATES,
     check_labels,
@@ -13,6 +19,8 @@ from kgkit.release.gates import (
     check_topic_loss,
     topic_text,
 )
+from kgkit.release.manifest import verify_release
+from kgkit.release.release import make_release
 from kgkit.vocab.folder import vocabulary_files
 from kgkit.vocab.model import Scheme, TopicRecord, Vocabulary
 
@@ -133,3 +141,111 @@ def test_topic_text_shows_label_beside_id():
         "unknown-entity",
         "topic-loss",
     }
+
+
+# --- a real compile and release ---------------------------------------------------
+
+
+def _home(ws):
+    return sorted(p.name for p in (ws.vocab_dir / "sport").iterdir())
+
+
+def _refused(ws, spec, **kw):
+    with pytest.raises(GateError) as exc:
+        make_release(ws, spec, **kw)
+    assert _home(ws) == ["build"]  # nothing written but the build
+    return [line.strip() for line in exc.value.details]
+
+
+def test_mistyped_select_root_refuses_release_and_names_the_nearest(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    spec.write_text(SPEC.replace(f"<{G}sport>", f"<{G}sprot>"), encoding="utf-8")
+    lines = _refused(workspace, spec)
+    assert lines[0] == (
+        "no-label: 1 active topic without any preferred label (is the entity still in the "
+        f"graph?): sprot (<{G}sprot>)"
+    )
+    assert lines[-1] == (
+        f"unknown-entity: {spec}:6: select[0] parameter 'root' '<{G}sprot>': no graph "
+        f"mentions it; nearest: sport (<{G}sport>)"
+    )
+
+
+def test_include_entity_no_graph_mentions_refuses_release(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    spec.write_text(SPEC + f"include: ['<{G}canoe-pollo>']\n", encoding="utf-8")
+    lines = _refused(workspace, spec)
+    assert [ln.split(":")[0] for ln in lines] == ["no-label", "unknown-entity"]
+    assert lines[1].startswith(f"unknown-entity: {spec}:10: include[0] '<{G}canoe-pollo>': ")
+    assert lines[1].endswith(f"nearest: canoe polo (<{G}canoe-polo>)")
+
+
+def test_curation_target_no_topic_has_refuses_release(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    cur = workspace.vocab_dir / "sport.curation.yaml"
+    cur.write_text(
+        CURATION + "  - add_alias: {topic: canoe-pollo, alias: polo, language: en}\n",
+        encoding="utf-8",
+    )
+    lines = _refused(workspace, spec)
+    assert lines == [
+        f"unknown-entity: {cur}:8: edit 4 (add_alias) topic 'canoe-pollo': no topic has "
+        "this id and no graph entity would get it; nearest: canoe polo (canoe-polo)"
+    ]
+
+
+def test_dump_cut_short_refuses_release_by_topic_loss(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    make_release(workspace, spec)
+    kept = {k: v for k, v in TOPICS_1.items() if k in ("sport", "water-sports", "canoe-polo")}
+    setup(workspace, dump(kept), "dump-cut.nt")
+    with pytest.raises(GateError) as exc:
+        make_release(workspace, spec)
+    assert str(exc.value).endswith(
+        "1 release gate problem; nothing released (waive='GATE' with reason='WHY' releases anyway)"
+    )
+    [line] = exc.value.details
+    assert line.startswith(
+        "  topic-loss: 4 of the 7 active topics of release 1.0.0 are gone without a "
+        "replacement (57%, more than the 10% release.max_topic_loss allows"
+    )
+    assert _home(workspace) == ["1.0.0", "build"]
+
+
+def test_waived_gate_is_recorded_in_manifest_and_changelog(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    make_release(workspace, spec)
+    kept = {k: v for k, v in TOPICS_1.items() if k != "dragon-boat"}
+    setup(workspace, dump(kept), "dump-2.nt")
+    with pytest.raises(ArgumentError, match="reason: say why the gates are waived"):
+        make_release(workspace, spec, waive=["topic-loss"])
+    with pytest.raises(ArgumentError, match="waive: unknown gate 'loss'"):
+        make_release(workspace, spec, waive=["loss"], reason="x")
+    r = make_release(workspace, spec, waive=["topic-loss"], reason="dragon boats left the desk")
+    assert r.version == "2.0.0"
+    m = json.loads((r.path / "manifest.json").read_text(encoding="utf-8"))
+    [o] = m["overrides"]
+    assert o["gate"] == "topic-loss" and o["reason"] == "dragon boats left the desk"
+    assert o["problems"][0].startswith("1 of the 7 active topics of release 1.0.0 are gone")
+    assert json.loads((r.path / "changelog.json").read_text())["waived_gates"] == [o]
+    md = (r.path / "changelog.md").read_text(encoding="utf-8")
+    assert "## Release gates waived\n\n- topic-loss, because: dragon boats left the desk\n" in md
+    assert verify_release(r.path).ok
+
+
+def test_refused_release_lists_one_line_per_problem_on_the_command_line(kgkit, workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    spec.write_text(SPEC.replace(f"<{G}sport>", f"<{G}sprot>"), encoding="utf-8")
+    r = kgkit("release", str(spec))
+    assert r.exit_code == 1
+    lines = r.output.splitlines()
+    assert lines[0] == (
+        f"Error: {spec}: 2 release gate problems; nothing released "
+        "(--waive GATE with --reason WHY releases anyway)"
+    )
+    assert [ln.split(":")[0] for ln in lines[1:]] == ["  no-label", "  unknown-entity"]
+    r = kgkit("release", str(spec), "--waive", "all")
+    assert r.exit_code == 2 and "--reason: say why the gates are waived" in r.output
+    r = kgkit("release", str(spec), "--waive", "all", "--reason", "trying the pipeline")
+    assert r.exit_code == 0, r.output
+    assert "  gate no-label waived: trying the pipeline" in r.output.splitlines()

@@ -28,10 +28,25 @@ from kgkit.release.release import make_release
     is_flag=True,
     help="Treat a stale curation edit as an error (default: report it and go on).",
 )
+@click.option(
+    "--waive",
+    "waive",
+    metavar="GATE",
+    multiple=True,
+    help="Release even though this gate fails (repeatable; 'all' for every gate). "
+    "Needs --reason; the manifest and changelog record both.",
+)
+@click.option("--reason", metavar="TEXT", default=None, help="Why the waived gates may be passed.")
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.pass_context
 def release_command(
-    ctx: click.Context, spec: str, version: str | None, strict: bool, as_json: bool
+    ctx: click.Context,
+    spec: str,
+    version: str | None,
+    strict: bool,
+    waive: tuple[str, ...],
+    reason: str | None,
+    as_json: bool,
 ):
     """Compile a spec afresh and release a new version of it.
 
@@ -42,10 +57,16 @@ def release_command(
     topic added or moved a minor one; a label, alias or notation changed a
     patch. An existing release folder is never overwritten.
 
+    Nothing is written when the previous release does not verify, or when the
+    vocabulary fails a release gate (no topics, a topic without a label or
+    without one in a required language, a lint error, a root, entity or
+    curation target no graph mentions, too many topics lost): each problem is
+    listed on its own line.
+
     Example: kgkit release vocab/tidewell.yaml
     """
     ws = get_workspace(ctx)
-    res = make_release(ws, spec, version=version, strict=strict)
+    res = make_release(ws, spec, version=version, strict=strict, waive=waive, reason=reason)
     for w in res.warnings:
         click.echo(f"Warning: {w}", err=True)
     if as_json:
@@ -57,7 +78,9 @@ def release_command(
     if s["changes"]:
         click.echo("  " + ", ".join(f"{k} {n}" for k, n in s["changes"].items()))
     for d in res.deprecated:
-        click.echo(f"  deprecated {d['id']} -> {d['replaced_by'] or '(no replacement)'}")
+        click.echo(f"  deprecated {res.topic_text(d['id'])} -> {res.topic_text(d['replaced_by'])}")
+    for o in res.overrides:
+        click.echo(f"  gate {o['gate']} waived: {o['reason']}")
     if res.stale:
         n = len(res.stale)
         click.echo(f"  {n} stale curation edit{'' if n == 1 else 's'} (see changelog.md)")

@@ -43,8 +43,13 @@ def changelog_data(
     level: str | None,
     forced: bool,
     stale: list,
+    waived: list | tuple = (),
 ) -> dict:
-    """The changelog as plain data (what ``changelog.json`` holds)."""
+    """The changelog as plain data (what ``changelog.json`` holds).
+
+    ``waived``: the release gates the owner released past, each ``{"gate", "reason",
+    "problems"}`` (see :func:`kgkit.release.gates.waived_record`).
+    """
     return {
         "vocabulary": name,
         "version": version,
@@ -54,6 +59,7 @@ def changelog_data(
         "counts": diff.counts() if previous is not None else {},
         "changes": [c.to_json() for c in diff.changes] if previous is not None else [],
         "stale_curation": stale,
+        "waived_gates": list(waived),
     }
 
 
@@ -64,6 +70,12 @@ def changelog_json(data: dict) -> str:
 def changelog_markdown(data: dict, diff: VocabDiff) -> str:
     """Readable changelog: a summary, then one section per kind of change."""
     lines = [f"# {data['vocabulary']} {data['version']}", ""]
+    if data.get("waived_gates"):
+        lines += ["## Release gates waived", ""]
+        for w in data["waived_gates"]:
+            lines.append(f"- {w['gate']}, because: {w['reason']}")
+            lines += [f"  - {p}" for p in w["problems"]]
+        lines.append("")
     if data["previous"] is None:
         lines += ["First release.", ""]
     else:

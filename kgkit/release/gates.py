@@ -36,7 +36,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from kgkit.errors import KgkitError, one_line
+from kgkit.errors import ArgumentError, GateError, KgkitError, one_line
 from kgkit.vocab.aliases import lang_matches
 
 __all__ = [
@@ -47,8 +47,13 @@ __all__ = [
     "check_lint",
     "check_references",
     "check_topic_loss",
+    "check_waivers",
+    "gate_error",
     "gate_problems",
+    "latest_release",
     "topic_text",
+    "vocabulary_gates",
+    "waived_record",
 ]
 
 #: gate name -> what it refuses
@@ -140,20 +145,22 @@ def check_labels(vocab, required: Sequence[str] = ()) -> list[GateProblem]:
     return out
 
 
+#: lint checks another gate reports already (in the vocabulary's own words)
+_COVERED = {"no-preferred-label"}  # gate no-label
+
+
 def check_lint(vocab, skos: str | None) -> list[GateProblem]:
     """``lint-error``: one line per lint check of level error that fires on the SKOS text."""
     if skos is None:
         return []
-    import rdflib
+    from kgkit.release.lint import lint_turtle
 
-    from kgkit.release.lint import lint_graph
-
-    g = rdflib.Graph()
-    g.parse(data=skos, format="turtle")
-    report = lint_graph(g, target="skos.ttl")
+    report = lint_turtle(skos)
     ns = vocab.scheme.namespace
     by_check: dict[str, list] = {}
     for f in report.errors:
+        if f.check in _COVERED:
+            continue
         by_check.setdefault(f.check, []).append(f)
     out = []
     for check, findings in by_check.items():
@@ -308,31 +315,38 @@ def _local_name(text: str) -> str:
     return re.split(r"[/#:]", text)[-1] or text
 
 
-def _nearest_entities(backend, ref: _Ref, graphs, limit: int = 3) -> list[str]:
-    """Entities named most like the reference's local name, found as ``kgkit find`` does."""
+def _candidates(backend, text: str, graphs, enough: int = 3) -> dict:
+    """Entities found by name the way ``kgkit find`` finds them: the whole text, its
+    words, then ever shorter beginnings of its longest word, until ``enough`` turn up."""
     from kgkit.entities import find_entities
 
-    local = _local_name(ref.iri or ref.text)
-    words = sorted(
-        _WORDS.findall(re.sub(r"([a-z])([A-Z])", r"\1 \2", local)), key=len, reverse=True
-    )
-    tries = [local, *words, *(w[: max(3, len(w) // 2)] for w in words if len(w) > 3)]
-    found = {}
-    for text in dict.fromkeys(t for t in tries if len(t) >= 2):
+    words = sorted(_WORDS.findall(re.sub(r"([a-z])([A-Z])", r"\1 \2", text)), key=len, reverse=True)
+    tries = [text.replace("-", " ").replace("_", " "), *words]
+    if words:
+        tries += [words[0][:n] for n in range(len(words[0]) - 1, 1, -1)]
+    found: dict = {}
+    for t in dict.fromkeys(t for t in tries if len(t) >= 2):
         try:
-            for m in find_entities(backend, text, limit=20, graphs=graphs):
+            for m in find_entities(backend, t, limit=20, graphs=graphs):
                 found.setdefault(m.iri, m)
         except KgkitError:
             continue
-        if len(found) >= limit:
+        if len(found) >= enough:
             break
-    key = local.casefold()
+    return found
+
+
+def _nearest_entities(found: dict, text: str, limit: int = 3) -> list[str]:
+    """The ``found`` entities named most like ``text``, shown as label (CURIE)."""
+    key = text.casefold()
 
     def score(m) -> float:
         names = (_local_name(m.iri), m.name, m.label or "")
         return max(difflib.SequenceMatcher(None, key, n.casefold()).ratio() for n in names)
 
-    best = sorted(found.values(), key=lambda m: (-score(m), m.curie))[:limit]
+    ranked = sorted(((score(m), m) for m in found.values()), key=lambda x: (-x[0], x[1].curie))
+    # the best one always; the others only when they are close (difflib's usual cutoff)
+    best = [m for i, (sc, m) in enumerate(ranked[:limit]) if i == 0 or sc >= 0.6]
     return [f"{m.label or m.name} ({m.curie})" for m in best]
 
 
@@ -362,6 +376,8 @@ def check_references(
     """``unknown-entity``: select roots, include/exclude entities and curation targets
     that no graph mentions (curation targets: and that no topic of ``vocabs``, the
     vocabulary and its previous release, has), each with the nearest names."""
+    from kgkit.vocab.model import local_id
+
     vocabs = [v for v in vocabs if v is not None]
     known_ids = {t.id for v in vocabs for t in v.topics}
     known_iris = {x for v in vocabs for t in v.topics for x in (t.source, t.iri) if x}
@@ -379,15 +395,22 @@ def check_references(
                 asked[ref.iri] = _mentioned(backend, ref.iri, graphs)
             if asked[ref.iri]:
                 continue
-            near = _nearest_entities(backend, ref, graphs)
+            local = _local_name(ref.iri)
+            near = _nearest_entities(_candidates(backend, local, graphs), local)
             if is_curation:
-                near += [n for n in _nearest_topics(_local_name(ref.text), vocabs) if n not in near]
+                near += [n for n in _nearest_topics(local, vocabs) if n not in near]
             cause = "no graph mentions it"
         elif ":" in ref.text:
             near, cause = [], "its prefix is not one of the workspace's"
         else:
+            # a topic id: the graph mentions it when an entity would get this id
+            found = _candidates(backend, ref.text, graphs)
+            if any(local_id(iri) == ref.text for iri in found):
+                continue
             near = _nearest_topics(ref.text, vocabs)
-            cause = "no topic has this id"
+            others = {i: m for i, m in found.items() if local_id(i) not in known_ids}
+            near += _nearest_entities(others, ref.text)
+            cause = "no topic has this id and no graph entity would get it"
         hint = f"; nearest: {', '.join(near[:3])}" if near else "; no similar name found"
         out.append(
             GateProblem(
@@ -424,4 +447,84 @@ def gate_problems(
         out += check_references(backend, ws, spec, edits, (vocab, previous))
     max_share = spec.max_topic_loss
     out += check_topic_loss(vocab, previous, max_share, previous_name)
+    return out
+
+
+def latest_release(spec, languages: Sequence[str] = ()):
+    """(version, vocabulary) of the newest release beside ``spec``, or (None, None)."""
+    from kgkit.release.versioning import scan_releases
+    from kgkit.vocab.folder import read_vocabulary
+
+    home = Path(spec.path).parent / spec.name
+    releases = scan_releases(home).releases
+    if not releases:
+        return None, None
+    return releases[-1], read_vocabulary(home / str(releases[-1]), languages)
+
+
+def vocabulary_gates(
+    ws, spec, vocab, edits: Iterable = (), previous=None, previous_name=None, skos=None
+):
+    """Every gate problem of a compiled vocabulary, against the newest release beside
+    its spec unless ``previous`` is given: what the compile warns about and the release
+    refuses. ``skos``: the SKOS text, when the caller has made it already."""
+    from kgkit.query import connect
+    from kgkit.vocab.folder import vocabulary_files
+
+    if previous is None:
+        try:
+            version, previous = latest_release(spec, vocab.languages)
+        except KgkitError:
+            version, previous = None, None  # a damaged release: verify and release say so
+        previous_name = f"release {version}" if version else None
+    if skos is None and vocab.active_topics():
+        skos = vocabulary_files(vocab, ["skos"])["skos.ttl"]()
+    with connect(ws) as backend:
+        return gate_problems(
+            vocab,
+            spec,
+            previous=previous,
+            previous_name=previous_name or "the previous release",
+            skos=skos,
+            backend=backend,
+            ws=ws,
+            edits=edits,
+        )
+
+
+def check_waivers(waive: Iterable[str], reason: str | None) -> tuple[str, ...]:
+    """The gate names to waive, checked: known names (``all`` for every gate), and a
+    reason given when any is waived. :class:`ArgumentError` otherwise."""
+    names = []
+    for name in waive:
+        if name == "all":
+            names.extend(GATES)
+        elif name in GATES:
+            names.append(name)
+        else:
+            raise ArgumentError("waive", f"unknown gate {name!r} (gates: {', '.join(GATES)}, all)")
+    if names and not (reason and reason.strip()):
+        raise ArgumentError("reason", "say why the gates are waived; the release records it")
+    return tuple(dict.fromkeys(names))
+
+
+def gate_error(where, problems: list[GateProblem], action: str, hint: str) -> GateError:
+    """The error refusing a vocabulary: a summary line, then one line per problem."""
+    n = len(problems)
+    return GateError(
+        f"{where}: {n} release gate problem{'' if n == 1 else 's'}; {action} ({hint})",
+        params=("waive", "reason", "strict"),
+        details=tuple(f"  {p.gate}: {p.message}" for p in problems),
+    )
+
+
+def waived_record(
+    problems: list[GateProblem], waived: Sequence[str], reason: str | None
+) -> list[dict]:
+    """What the manifest and changelog record: each waived gate that fired, why, its problems."""
+    out = []
+    for gate in GATES:
+        hit = [p.message for p in problems if p.gate == gate]
+        if hit and gate in waived:
+            out.append({"gate": gate, "reason": reason, "problems": hit})
     return out
