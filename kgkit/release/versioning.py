@@ -1,6 +1,6 @@
 """Release versions: ``MAJOR.MINOR.PATCH`` and the rules that pick the next one.
 
-The rules (firm; the README states them too):
+The rules (firm; docs/releases.md states them too):
 
 - the first release is ``1.0.0``;
 - a topic removed or deprecated, or an id changed -> next major;
