@@ -32,9 +32,9 @@ def _where(name) -> str:
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the worklist as JSON.")
 def triage_command(folder: Path, corpus: Path | None, limit: int | None, as_json: bool) -> None:
-    """List the names several topics share in VOCAB (a release or build folder), riskiest first.
+    """List the names several topics share, riskiest first.
 
-    Risk, in this order: how many topics share the name, whether it is someone's
+    VOCAB is a release or build folder. Risk, in this order: how many topics share the name, whether it is someone's
     preferred label, how common it is in general text (Zipf frequency), and with
     --corpus the share of documents it occurs in. Each name comes with its
     candidate topics, their labels and parents; settle one with a curation edit
