@@ -128,7 +128,7 @@ def test_stale_settle_passes_strict(workspace):
 
 
 def test_common_words_missing_from_the_review_page(built):
-    from kgkit.report import load_review, render_page
+    from kgkit.review import load_review, render_page
 
     res, _, _ = built
     page = render_page(load_review(res.output, lint=False))

@@ -18,7 +18,7 @@ from kgkit.probe import (
     probe_corpus,
     write_curation_edits,
 )
-from kgkit.report import write_page
+from kgkit.review import write_page
 
 
 @click.command("review")

@@ -32,7 +32,7 @@ from kgkit.ingest import ImportOptions, import_files, make_slice
 from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
 from kgkit.query import connect, run_query
 from kgkit.release.release import make_release
-from kgkit.report import write_page
+from kgkit.review import write_page
 from kgkit.templates import run_template
 from kgkit.vocab.compile import compile_vocabulary
 from kgkit.vocab.curation import load_curation

@@ -11,7 +11,7 @@ from html.parser import HTMLParser
 import pytest
 
 from kgkit.cli import cli
-from kgkit.report import ReviewError, load_review, render_page, write_page
+from kgkit.review import ReviewError, load_review, render_page, write_page
 from kgkit.vocab.writers import BuildFileError
 
 

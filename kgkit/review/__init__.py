@@ -165,7 +165,7 @@ _e = html.escape
 
 
 def _asset(name: str) -> str:
-    return resources.files("kgkit.report").joinpath(name).read_text(encoding="utf-8")
+    return resources.files("kgkit.review").joinpath(name).read_text(encoding="utf-8")
 
 
 def _json_for_script(data: object) -> str:
