@@ -249,3 +249,28 @@ def test_refused_release_lists_one_line_per_problem_on_the_command_line(kgkit, w
     r = kgkit("release", str(spec), "--waive", "all", "--reason", "trying the pipeline")
     assert r.exit_code == 0, r.output
     assert "  gate no-label waived: trying the pipeline" in r.output.splitlines()
+
+
+def test_compile_warns_of_gate_problems_and_strict_makes_them_errors(kgkit, workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    spec.write_text(SPEC.replace(f"<{G}sport>", f"<{G}sprot>"), encoding="utf-8")
+    r = kgkit("compile", str(spec), "--quiet")
+    assert r.exit_code == 0, r.output
+    warnings = [ln for ln in r.output.splitlines() if ln.startswith("Warning: release gate ")]
+    assert [w.split(":")[1] for w in warnings] == [
+        " release gate no-label",
+        " release gate unknown-entity",
+    ]
+    build = workspace.vocab_dir / "sport" / "build"
+    kept = (build / "topics.jsonl").read_bytes()
+    setup(workspace, dump(dict(TOPICS_1, ghost=("ghost", None, "sport", []))), "dump-2.nt")
+    r = kgkit("compile", str(spec), "--strict")
+    assert r.exit_code == 1
+    assert r.output.splitlines()[0] == (
+        f"Error: {spec}: 1 release gate problem; no build written (--strict)"
+    )
+    assert r.output.splitlines()[1] == (
+        "  missing-language: 1 active topic without a preferred label in 'de' "
+        "(languages.required): ghost (ghost)"
+    )
+    assert (build / "topics.jsonl").read_bytes() == kept  # the previous build is untouched

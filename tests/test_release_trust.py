@@ -225,3 +225,18 @@ def test_verify_kgkit_yaml_is_a_one_line_error(kgkit, workspace):
     assert r.exit_code == 1 and r.output.startswith(
         f"Error: {workspace.root / 'nowhere'}: no such folder"
     )
+
+
+def test_temp_folder_of_a_killed_compile_is_removed_by_the_next_compile(workspace):
+    from kgkit.vocab.compile import compile_vocabulary
+
+    spec = setup(workspace, dump(TOPICS_1))
+    home = workspace.vocab_dir / "sport"
+    home.mkdir()
+    dead = subprocess.Popen(["true"])
+    dead.wait()
+    left = home / f".build.tmp-{dead.pid}"
+    left.mkdir()
+    (left / "skos.ttl").write_text("half written")
+    compile_vocabulary(workspace, spec)
+    assert sorted(p.name for p in home.iterdir()) == ["build"]

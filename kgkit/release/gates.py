@@ -50,7 +50,6 @@ __all__ = [
     "check_waivers",
     "gate_error",
     "gate_problems",
-    "latest_release",
     "topic_text",
     "vocabulary_gates",
     "waived_record",
@@ -450,33 +449,15 @@ def gate_problems(
     return out
 
 
-def latest_release(spec, languages: Sequence[str] = ()):
-    """(version, vocabulary) of the newest release beside ``spec``, or (None, None)."""
-    from kgkit.release.versioning import scan_releases
-    from kgkit.vocab.folder import read_vocabulary
-
-    home = Path(spec.path).parent / spec.name
-    releases = scan_releases(home).releases
-    if not releases:
-        return None, None
-    return releases[-1], read_vocabulary(home / str(releases[-1]), languages)
-
-
 def vocabulary_gates(
     ws, spec, vocab, edits: Iterable = (), previous=None, previous_name=None, skos=None
 ):
-    """Every gate problem of a compiled vocabulary, against the newest release beside
-    its spec unless ``previous`` is given: what the compile warns about and the release
-    refuses. ``skos``: the SKOS text, when the caller has made it already."""
+    """Every gate problem of a compiled vocabulary (``previous``: the vocabulary of the
+    release it follows, named ``previous_name``): what the compile warns about and the
+    release refuses. ``skos``: the SKOS text, when the caller has made it already."""
     from kgkit.query import connect
     from kgkit.vocab.folder import vocabulary_files
 
-    if previous is None:
-        try:
-            version, previous = latest_release(spec, vocab.languages)
-        except KgkitError:
-            version, previous = None, None  # a damaged release: verify and release say so
-        previous_name = f"release {version}" if version else None
     if skos is None and vocab.active_topics():
         skos = vocabulary_files(vocab, ["skos"])["skos.ttl"]()
     with connect(ws) as backend:
