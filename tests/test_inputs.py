@@ -397,3 +397,36 @@ def test_parse_error_hint_names_the_flag_on_the_command_line(kgkit, tmp_path):
     bad.write_text("<http://example.org/a> <http://example.org/b> .\n", encoding="utf-8")
     r = kgkit("import", str(bad), "--graph", "g")
     assert one_error_line(r).endswith("; run with --on-error skip to set bad statements aside")
+
+
+# --- 20,000 curation edits ---------------------------------------------------------------
+
+
+class _CountingLinks(dict):
+    """graph_parents that counts full scans (each merge used to scan every link)."""
+
+    scans = 0
+
+    def items(self):
+        type(self).scans += 1
+        return super().items()
+
+
+def test_many_merges_do_not_scan_every_parent_link_each():
+    from kgkit.vocab.curation import Edit, apply_curation
+    from kgkit.vocab.model import Topic
+
+    topics = {f"t{i}": Topic(id=f"t{i}", source=None) for i in range(200)}
+    for t in topics.values():
+        t.labels.append(("en", t.id, 0))
+    links = _CountingLinks({f"t{i}": [f"t{i // 2}"] if i else [] for i in range(200)})
+    links.update({f"http://x/e{j}": [f"t{j % 200}"] for j in range(1000)})
+    edits = [
+        Edit(k, None, "merge", {"topic": f"t{199 - k}", "into": "t0"}, None) for k in range(50)
+    ]
+    res = apply_curation(edits, topics, links, lambda r: r, lambda t: {})
+    assert len(res.applied) == 50 and res.merged["t199"] == "t0"
+    assert _CountingLinks.scans <= 1  # one index made at the first merge, then kept
+    # the merged topics' children now hang under t0, none under a merged topic
+    assert all(not set(ps) & set(res.merged) for ps in links.values())
+    assert links["t150"] == [] and "t0" in links["http://x/e199"]
