@@ -339,3 +339,87 @@ def test_output_streams_rows_before_the_result_ends(fmt):
 def test_a_result_without_variables(ws):
     assert _out(ws, "SELECT * WHERE { }", "table") == "\n\n\n(1 row)\n"
     assert json.loads(_out(ws, "SELECT * WHERE { }", "json"))["results"]["bindings"] == [{}]
+
+
+# -- updates keep kgkit's records true (issue 11) and LOAD needs its own permission (15) --
+
+
+def _registry(ws) -> list[tuple[str, int]]:
+    from kgkit.store import list_graphs
+
+    with open_store(ws.store_path) as store:
+        return [(g.name, g.statements) for g in list_graphs(store)]
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        ("DROP ALL", "ALL would also remove kgkit's own records"),
+        ("CLEAR NAMED", "NAMED would also remove kgkit's own records"),
+        ("DELETE WHERE { GRAPH ?g { ?s ?p ?o } }", "names a graph through ?g"),
+        (
+            "INSERT { GRAPH ?g { t:x t:y t:z } } WHERE { GRAPH ?g { ?s ?p ?o } }",
+            "names a graph through ?g",
+        ),
+        (
+            "INSERT DATA { GRAPH <urn:kgkit:provenance> { t:x t:y t:z } }",
+            "names <urn:kgkit:provenance>",
+        ),
+        (
+            "PREFIX k: <urn:kgkit:> DELETE WHERE { GRAPH k:provenance { ?s ?p ?o } }",
+            "names <urn:kgkit:",
+        ),
+        # a relative IRI resolved against BASE reaches the provenance graph too
+        (
+            "BASE <urn:k/> INSERT DATA { GRAPH <../kgkit:provenance> { t:x t:y t:z } }",
+            "names <urn:kgkit:provenance>",
+        ),
+        (
+            "INSERT DATA { t:x <http://kgkit.invalid/ns#current> t:z }",
+            "names <http://kgkit.invalid/ns#current>",
+        ),
+        ("DROP GRAPH <{content}>", "DROP on a graph's content"),
+        ("CLEAR SILENT GRAPH <{content}>", "CLEAR on a graph's content"),
+        ("COPY DEFAULT TO <{content}>", "COPY on a graph's content"),
+        ("LOAD <file:///etc/hostname>", "LOAD, which reads a local file or fetches a URL"),
+        ("LOAD <http://127.0.0.1:9/x.nt> INTO GRAPH <http://e/g>", "refused (give allow_load"),
+    ],
+)
+def test_update_that_would_put_graphs_out_of_step_with_queries_is_refused(ws, text, cause):
+    text = text.replace("{content}", _content(ws, "other"))
+    with open_store(ws.store_path) as store:
+        before = {str(q) for q in store}
+    with connect(ws, write=True) as b, pytest.raises(QueryError) as info:
+        run_query(b, text, allow_update=True)
+    assert cause in str(info.value)
+    with open_store(ws.store_path) as store:
+        assert {str(q) for q in store} == before
+
+
+def test_allowed_update_keeps_the_statement_count_of_graphs_true(tmp_path):
+    ws = make_explore_workspace(tmp_path / "ws")
+    before = dict(_registry(ws))
+    g = f"GRAPH <{_content(ws, 'other')}>"
+    with connect(ws, write=True) as b:
+        run_query(
+            b,
+            f"INSERT DATA {{ {g} {{ t:x skos:prefLabel 'x'@en . t:y skos:prefLabel 'y'@en }} }} ;",
+            allow_update=True,
+        )
+        run_query(b, f"DELETE DATA {{ {g} {{ t:y skos:prefLabel 'y'@en }} }}", allow_update=True)
+    after = dict(_registry(ws))
+    assert after == {**before, "other": before["other"] + 1}
+    n = _select(ws, "SELECT (COUNT(*) AS ?n) WHERE { ?s ?p ?o }", graphs=["other"])[1]
+    assert int(n[0][0].value) == after["other"]
+
+
+def test_load_runs_only_when_allowed(tmp_path):
+    ws = make_explore_workspace(tmp_path / "ws")
+    src = tmp_path / "extra.nt"
+    src.write_text("<http://e/a> <http://e/b> <http://e/c> .\n", encoding="utf-8")
+    text = f"LOAD SILENT <{src.as_uri()}> INTO GRAPH <http://e/g>"
+    with connect(ws, write=True) as b:
+        with pytest.raises(QueryError, match="allow_load"):
+            run_query(b, text, allow_update=True)
+        # allowed, it reaches the store (SILENT: whatever pyoxigraph makes of a file: IRI)
+        assert run_query(b, text, allow_update=True, allow_load=True).kind == "update"

@@ -20,11 +20,12 @@ from kgkit.store import (
 @click.option("--json", "as_json", is_flag=True, help="Print what was dropped as one JSON object.")
 @click.pass_context
 def drop_command(ctx, name, as_json):
-    """Remove graph NAME and the provenance of its imports from the store.
+    """Remove graph NAME and its provenance from the store.
 
-    One transaction: queries and `kgkit graphs` stop seeing the graph together, and
-    every other graph stays as it is. The statements it held are left for
-    `kgkit reclaim`, which frees their space.
+    The provenance of all its imports goes too, in one transaction: queries and
+    `kgkit graphs` stop seeing the graph together, and every other graph stays as
+    it is. The statements it held are left for `kgkit reclaim`, which frees their
+    space (up to 10,000 go at once).
 
     Example: kgkit drop sport-2025
     """
@@ -59,11 +60,12 @@ def drop_command(ctx, name, as_json):
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
 @click.pass_context
 def reclaim_command(ctx, limit, as_json, quiet):
-    """Free the space of replaced and dropped graphs and of failed or killed imports.
+    """Free the space held by replaced and dropped graphs.
 
-    No query sees these statements; removing them takes longer than importing them,
-    so imports leave it to this command. It works in small steps: stopping it with
-    Ctrl-C loses nothing, and the next run goes on from there.
+    Also what failed or killed imports left. No query sees these statements;
+    removing them takes longer than importing them, so imports leave it to this
+    command. It works in small steps: stopping it with Ctrl-C loses nothing, and
+    the next run goes on from there.
 
     Example: kgkit reclaim --limit 1000000
     """
