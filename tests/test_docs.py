@@ -206,3 +206,52 @@ def test_quoted_lexicon_rows_are_real_rows(tmp_path, monkeypatch, runner):
     ]
     assert len(quoted) > 2 and quoted[0] == rows[0]
     assert [q for q in quoted if q not in rows] == []
+
+
+# --- every file format's names are documented on its page ------------------------------
+
+
+def _mapping_keys(source: str) -> dict[str, tuple[str, ...]]:
+    """``section -> keys`` of the spec reader's ``c.mapping(..., "section", (keys))`` calls."""
+    out = {}
+    pattern = r'c\.mapping\(\s*[^,]+,\s*"(\w+)",\s*\(([^)]*)\),?\s*\)'
+    for section, keys in re.findall(pattern, source, flags=re.S):
+        out[section] = tuple(re.findall(r'"(\w+)"', keys))
+    return out
+
+
+def test_every_spec_key_is_documented():
+    import kgkit.vocab.spec as spec
+
+    page = DOCS["spec.md"]
+    missing = [k for k in spec.TOP_KEYS if f"`{k}`" not in page and f"`{k}." not in page]
+    nested = _mapping_keys((ROOT / "kgkit" / "vocab" / "spec.py").read_text(encoding="utf-8"))
+    assert {"languages", "aliases", "prune"} <= set(nested)
+    for section, keys in nested.items():
+        if section in spec.TOP_KEYS:
+            missing += [f"{section}.{k}" for k in keys if f"`{section}.{k}`" not in page]
+    missing += [f for f in spec.OUTPUTS.values() if f"`{f}`" not in page]
+    assert missing == [], "docs/spec.md does not describe these spec keys or files"
+
+
+def test_every_workspace_key_is_documented():
+    from kgkit.workspace import CONFIG_KEYS, GRAPH_KEYS
+
+    page = DOCS["workspace.md"]
+    missing = [k for k in (*CONFIG_KEYS, *GRAPH_KEYS) if f"`{k}`" not in page]
+    assert missing == [], "docs/workspace.md does not describe these kgkit.yaml keys"
+
+
+def test_every_curation_action_is_documented():
+    from kgkit.vocab.curation import ACTIONS
+
+    page = DOCS["curation.md"]
+    assert [a for a in ACTIONS if f"{a}:" not in page and f"`{a}`" not in page] == []
+
+
+def test_every_builtin_template_and_lint_check_is_documented():
+    from kgkit.release.lint import CHECKS
+
+    names = sorted(p.stem for p in (ROOT / "kgkit" / "queries").glob("*.rq"))
+    assert [n for n in names if f"| `{n}` |" not in DOCS["templates.md"]] == []
+    assert [c.name for c in CHECKS if f"| `{c.name}` |" not in DOCS["lint.md"]] == []
