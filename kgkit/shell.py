@@ -4,13 +4,13 @@ A statement ends with a line whose last character is ``;`` outside any ``{...}``
 group (a ``;`` inside a group is SPARQL's own predicate-list separator). Lines
 starting with ``:`` at the start of a statement are shell commands:
 
-``:prefixes``           the workspace prefixes
-``:templates``          the templates and their parameters
-``:run NAME k=v ...``   run a template
-``:format NAME``        switch the output format (table, json, csv, tsv, nt, ttl)
-``:graphs``             the graphs queries see
-``:help``               this list
-``:quit``               leave (end of input does too)
+- ``:prefixes``: the workspace prefixes
+- ``:templates``: the templates and their parameters
+- ``:run NAME PARAM=VALUE ...``: run a template
+- ``:format NAME``: switch the output format (table, json, csv, tsv, nt, ttl)
+- ``:graphs``: the graphs queries see
+- ``:help``: this list
+- ``:quit``: leave (end of input does too)
 
 History is kept across sessions in ``.kgkit/shell-history`` in the workspace, one
 statement a line. The loop reads and writes through two callables, so it runs the
@@ -35,13 +35,13 @@ MORE = "  ...> "
 HELP = """\
 Type SPARQL over one or more lines and end it with ; at the end of a line.
 Commands:
-  :prefixes            the workspace prefixes
-  :templates           the templates and their parameters
-  :run NAME k=v ...    run a template
-  :format NAME         output format: table, json, csv, tsv, nt, ttl
-  :graphs              the graphs queries see
-  :help                this list
-  :quit                leave (end of input does too)
+  :prefixes                  the workspace prefixes
+  :templates                 the templates and their parameters
+  :run NAME PARAM=VALUE ...  run a template
+  :format NAME               output format: table, json, csv, tsv, nt, ttl
+  :graphs                    the graphs queries see
+  :help                      this list
+  :quit                      leave (end of input does too)
 """
 
 
@@ -179,13 +179,13 @@ class Shell:
                 self.write(", ".join(shown) + "\n" if shown else "no graphs imported yet\n")
             elif name == "run":
                 if not args:
-                    self.write("Error: :run NAME key=value ...\n")
+                    self.write("Error: :run NAME PARAM=VALUE ...\n")
                     return None
                 params = {}
                 for a in args[1:]:
                     key, eq, value = a.partition("=")
                     if not eq:
-                        raise ParameterError(f"parameter {a!r} is not key=value")
+                        raise ParameterError(f"parameter {a!r} is not PARAM=VALUE")
                     params[key] = value
                 self._show(run_template(self.backend, args[0], params, graphs=self.graphs))
             else:
