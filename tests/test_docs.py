@@ -3,6 +3,7 @@ naming every option, command lines in the docs that parse, demo output quoted as
 
 from __future__ import annotations
 
+import json
 import re
 import shlex
 
@@ -255,3 +256,56 @@ def test_every_builtin_template_and_lint_check_is_documented():
     names = sorted(p.stem for p in (ROOT / "kgkit" / "queries").glob("*.rq"))
     assert [n for n in names if f"| `{n}` |" not in DOCS["templates.md"]] == []
     assert [c.name for c in CHECKS if f"| `{c.name}` |" not in DOCS["lint.md"]] == []
+
+
+# --- the docs' file examples are valid files -----------------------------------------
+
+
+def _blocks(page: str, lang: str) -> list[str]:
+    return re.findall(rf"```{lang}\n(.*?)```", DOCS[page], flags=re.S)
+
+
+@pytest.fixture
+def tw_workspace(tmp_path, runner):
+    """A fresh workspace that knows the docs' prefix tw: (the demo's)."""
+    res = runner.invoke(cli, ["init", str(tmp_path / "ws")])
+    assert res.exit_code == 0, res.output
+    conf = tmp_path / "ws" / "kgkit.yaml"
+    text = conf.read_text(encoding="utf-8")
+    conf.write_text(
+        text.replace("prefixes:\n", "prefixes:\n  tw:   http://demo.kgkit.invalid/e/\n", 1),
+        encoding="utf-8",
+    )
+    return tmp_path / "ws"
+
+
+def test_the_entity_record_example_imports(tw_workspace, runner):
+    (example,) = _blocks("entity-records.md", "json")
+    line = json.dumps(json.loads(example), ensure_ascii=False)  # a file holds one per line
+    (tw_workspace / "one.jsonl").write_text(line + "\n", encoding="utf-8")
+    ws = ["--workspace", str(tw_workspace)]
+    res = runner.invoke(cli, [*ws, "import", str(tw_workspace / "one.jsonl"), "--json"])
+    assert res.exit_code == 0, res.output
+    summary = json.loads(res.output.strip().splitlines()[-1])
+    assert summary["rejected"] == 0 and summary["loaded"] >= 12
+    card = runner.invoke(cli, [*ws, "show", "tw:canoe-polo"])
+    assert "canoe polo" in card.output and "Kanupolo" in card.output
+
+
+def test_the_spec_and_curation_examples_are_valid(tw_workspace, monkeypatch):
+    from kgkit.vocab.curation import load_curation
+    from kgkit.vocab.spec import load_spec
+    from kgkit.workspace import load_workspace
+
+    ws = load_workspace(tw_workspace)
+    specs = _blocks("spec.md", "yaml")
+    assert specs
+    for i, text in enumerate(specs):
+        path = tw_workspace / "vocab" / f"example{i}.yaml"
+        path.write_text(text, encoding="utf-8")
+        load_spec(ws, path)  # raises SpecError naming the line on a bad example
+    (curation,) = _blocks("curation.md", "yaml")
+    path = tw_workspace / "vocab" / "example.curation.yaml"
+    path.write_text(curation, encoding="utf-8")
+    edits = load_curation(path)
+    assert len(edits) == len(re.findall(r"^  - \w+:", curation, flags=re.M))
