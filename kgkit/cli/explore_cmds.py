@@ -29,6 +29,7 @@ def _graph_option(f):
         "--graph",
         "-g",
         "graphs",
+        metavar="NAME",
         multiple=True,
         help="Query only this imported graph (repeatable; default: all of them).",
     )(f)
@@ -51,6 +52,7 @@ def _output_options(f):
     )(f)
     f = click.option(
         "--timeout",
+        metavar="SECONDS",
         type=float,
         default=60.0,
         show_default=True,
@@ -219,8 +221,15 @@ def show_command(ctx, term, graphs, as_json):
 
 @click.command("find")
 @click.argument("text")
-@click.option("--lang", "language", help="Only names in this language (en also matches en-GB).")
-@click.option("--limit", type=int, default=20, show_default=True, help="At most this many.")
+@click.option(
+    "--lang",
+    "language",
+    metavar="LANG",
+    help="Only names in this language (en also matches en-GB).",
+)
+@click.option(
+    "--limit", metavar="N", type=int, default=20, show_default=True, help="At most this many."
+)
 @_graph_option
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object per match.")
 @click.pass_context
@@ -246,9 +255,12 @@ def find_command(ctx, text, language, limit, graphs, as_json):
 
 @click.command("tree")
 @click.argument("term")
-@click.option("--depth", "-d", type=int, default=2, show_default=True, help="Levels shown.")
+@click.option(
+    "--depth", "-d", metavar="N", type=int, default=2, show_default=True, help="Levels shown."
+)
 @click.option(
     "--max-children",
+    metavar="N",
     type=int,
     default=50,
     show_default=True,

@@ -68,11 +68,13 @@ def _line_col(text: str, offset: int) -> tuple[int, int]:
 )
 @click.option(
     "--corpus",
+    metavar="DIR",
     type=click.Path(file_okay=False, exists=True, path_type=Path),
     help="Probe every .txt file under this folder and report how common each alias is.",
 )
 @click.option(
     "--threshold",
+    metavar="SHARE",
     type=float,
     default=DEFAULT_THRESHOLD,
     show_default=True,

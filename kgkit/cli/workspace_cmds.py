@@ -11,6 +11,7 @@ from kgkit.workspace import init_workspace
 @click.argument("directory", default=".", type=click.Path(file_okay=False))
 @click.option(
     "--languages",
+    metavar="LIST",
     default="en",
     show_default=True,
     help="Comma-separated default label languages written into kgkit.yaml.",
