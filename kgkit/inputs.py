@@ -62,6 +62,7 @@ __all__ = [
     "read_json",
     "read_text_file",
     "read_yaml",
+    "shape_error",
 ]
 
 #: Largest file read whole as text (YAML settings, specs, curation, templates, reports).
@@ -486,6 +487,80 @@ def read_yaml(
 ) -> YamlDocument:
     """:func:`read_text_file` then :func:`load_yaml`, with the file as the source."""
     return load_yaml(read_text_file(path, what, error), str(path), error, **limits)
+
+
+# --- shapes of parsed data -------------------------------------------------------------
+
+_KIND_NAMES = {
+    str: "text",
+    int: "an integer",
+    float: "a number",
+    bool: "true or false",
+    dict: "an object",
+    list: "a list",
+    type(None): "null",
+}
+
+
+def _kind_name(shape) -> str:
+    if isinstance(shape, tuple):
+        return " or ".join(_kind_name(s) for s in shape)
+    if isinstance(shape, list):
+        return "a list"
+    if isinstance(shape, dict):
+        return "an object"
+    return _KIND_NAMES.get(shape, shape.__name__)
+
+
+def shape_error(value: object, shape, where: str = "") -> str | None:
+    """Where ``value`` (parsed JSON or YAML) first differs from ``shape``, or None.
+
+    A shape is a type (``int`` refuses booleans), a tuple of shapes (any of them), a
+    one-item list ``[item shape]``, or a dict: ``{str: value shape}`` for a mapping of
+    any keys, or ``{"key": shape, ...}`` checking the keys present (others are free).
+
+    >>> shape_error({"counts": {"a": 1}, "roots": ["x", 2]}, {"counts": {str: int}, "roots": [str]})
+    "'roots[1]' must be text, got 2"
+    >>> shape_error([1], {"a": int}) is None
+    False
+    """
+    if isinstance(shape, tuple):
+        errors = [shape_error(value, s, where) for s in shape]
+        if None in errors:
+            return None
+        for s, err in zip(shape, errors, strict=True):  # the inner fault of the right kind
+            if (isinstance(s, dict) and isinstance(value, dict)) or (
+                isinstance(s, list) and isinstance(value, list)
+            ):
+                return err
+    elif isinstance(shape, list):
+        if isinstance(value, list):
+            for i, item in enumerate(value):
+                err = shape_error(item, shape[0], f"{where}[{i}]")
+                if err:
+                    return err
+            return None
+    elif isinstance(shape, dict):
+        if isinstance(value, dict):
+            if str in shape:
+                for k, v in value.items():
+                    err = shape_error(v, shape[str], f"{where}.{k}" if where else str(k))
+                    if err:
+                        return err
+                return None
+            for k, sub in shape.items():
+                if k in value:
+                    err = shape_error(value[k], sub, f"{where}.{k}" if where else k)
+                    if err:
+                        return err
+            return None
+    elif shape is int or shape is float:
+        if not isinstance(value, bool) and isinstance(value, int if shape is int else int | float):
+            return None
+    elif isinstance(value, shape):
+        return None
+    shown = repr(value) if len(repr(value)) <= 40 else type(value).__name__
+    return f"{(repr(where) + ' ') if where else ''}must be {_kind_name(shape)}, got {shown}"
 
 
 # --- JSON ----------------------------------------------------------------------------

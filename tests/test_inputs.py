@@ -430,3 +430,57 @@ def test_many_merges_do_not_scan_every_parent_link_each():
     # the merged topics' children now hang under t0, none under a merged topic
     assert all(not set(ps) & set(res.merged) for ps in links.values())
     assert links["t150"] == [] and "t0" in links["http://x/e199"]
+
+
+# --- report.json and topics.jsonl of a vocabulary folder -----------------------------------
+
+
+def _corrupt_copy(demo_workspace, tmp_path, name: str, change) -> Path:
+    import json
+    import shutil
+
+    folder = tmp_path / "copy"
+    shutil.copytree(demo_workspace["releases"][-1], folder)
+    path = folder / name
+    if name == "report.json":
+        data = json.loads(path.read_text(encoding="utf-8"))
+        path.write_text(json.dumps(change(data)), encoding="utf-8")
+    else:
+        lines = path.read_text(encoding="utf-8").splitlines()
+        lines[1] = json.dumps(change(json.loads(lines[1])))
+        path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return folder
+
+
+@pytest.mark.parametrize(
+    "name, change, cause",
+    [
+        ("report.json", lambda d: [1, 2], "JSON object"),
+        ("report.json", lambda d: {**d, "curation": 5}, "'curation' must be an object or null"),
+        ("report.json", lambda d: {**d, "ambiguous": ["x"]}, "'ambiguous[0]' must be an object"),
+        ("report.json", lambda d: {**d, "counts": "x"}, "'counts' must be an object or null"),
+        ("topics.jsonl", lambda t: {**t, "labels": {"en": 5}}, "'labels.en' must be text"),
+        ("topics.jsonl", lambda t: {**t, "parents": "x"}, "'parents' must be a list or null"),
+        ("topics.jsonl", lambda t: {**t, "depth": "2"}, "'depth' must be an integer or null"),
+    ],
+    ids=[
+        "report-is-a-list",
+        "report-curation-int",
+        "report-ambiguous-text",
+        "report-counts-text",
+        "topic-label-int",
+        "topic-parents-text",
+        "topic-depth-text",
+    ],
+)
+def test_vocabulary_folder_with_wrong_typed_fields_is_one_line(
+    demo_workspace, tmp_path, runner, name, change, cause
+):
+    folder = _corrupt_copy(demo_workspace, tmp_path, name, change)
+    first = demo_workspace["releases"][0]
+    page = str(tmp_path / "p.html")
+    for args in (["diff", str(first), str(folder)], ["review", str(folder), "-o", page]):
+        r = runner.invoke(cli, args)
+        assert r.exit_code == 1
+        line = one_error_line(r)
+        assert str(folder / name) in line and cause in line

@@ -29,7 +29,8 @@ from importlib import resources
 from pathlib import Path
 
 from kgkit.errors import ReviewError
-from kgkit.vocab.folder import read_topics
+from kgkit.inputs import read_json, shape_error
+from kgkit.vocab.folder import REPORT_SHAPE, read_topics
 from kgkit.vocab.model import TopicRecord
 
 __all__ = ["Review", "ReviewError", "load_review", "render_page", "write_page"]
@@ -69,15 +70,15 @@ class Review:
     notes: list[str] = field(default_factory=list)  # what could not be shown, and why
 
 
-def _read_json(path: Path) -> dict | None:
-    if not path.is_file():
+def _read_json(path: Path, shape: object = dict) -> dict | None:
+    """A JSON object of the folder, checked against ``shape``, or None when absent."""
+    if not os.path.lexists(path):
         return None
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise ReviewError(f"{path}:{exc.lineno}: malformed JSON ({exc.msg})") from None
-    except UnicodeDecodeError:
-        raise ReviewError(f"{path}: not UTF-8 text") from None
+    data = read_json(path, "a JSON file", ReviewError)
+    problem = shape_error(data, shape) if isinstance(data, dict) else "must be a JSON object"
+    if problem:
+        raise ReviewError(f"{path}: {problem}")
+    return data
 
 
 def _read_topics(path: Path) -> list[TopicRecord]:
@@ -129,11 +130,11 @@ def load_review(target: Path | str, lint: bool = True) -> Review:
         path=folder,
         topics=sorted(_read_topics(topics_path), key=lambda t: t.id),
         version=version,
-        report=_read_json(folder / "report.json"),
+        report=_read_json(folder / "report.json", REPORT_SHAPE),
         manifest=manifest,
     )
     if kind == "release":
-        review.changelog = _read_json(folder / "changelog.json")
+        review.changelog = _read_json(folder / "changelog.json", {"changes": ([dict], type(None))})
         if review.changelog is None:
             review.notes.append("no changelog.json in this release")
     else:

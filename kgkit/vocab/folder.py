@@ -15,10 +15,12 @@ its lines over.
 from __future__ import annotations
 
 import json
+import os
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
 from kgkit.errors import BuildFileError
+from kgkit.inputs import read_json, shape_error
 from kgkit.vocab.model import LexiconRow, Report, Scheme, TopicRecord, Vocabulary
 
 __all__ = [
@@ -73,8 +75,68 @@ def parse_topics(lines: Iterable[str], name: str = "topics.jsonl") -> dict[str, 
             raise BuildFileError(f"{name}:{n}: a topic needs a string 'id'")
         if t["id"] in out:
             raise BuildFileError(f"{name}:{n}: topic id {t['id']!r} appears twice")
+        if not _topic_fits(t):
+            problem = shape_error(t, TOPIC_SHAPE) or "a topic of the wrong shape"
+            raise BuildFileError(f"{name}:{n}: topic {t['id']!r}: {problem}")
         out[t["id"]] = make(t)
     return out
+
+
+_NONE = type(None)
+_TEXT_OR_NONE = (str, _NONE)
+_TEXTS = ("curie", "graph", "iri", "notation", "replaced_by", "source")
+_LISTS = ("flags", "parents", "same_as")
+#: the types of a topic's fields in ``topics.jsonl`` (see :func:`kgkit.inputs.shape_error`)
+TOPIC_SHAPE = {
+    "id": str,
+    **{k: (str, _NONE) for k in _TEXTS},
+    **{k: ([str], _NONE) for k in _LISTS},
+    "labels": ({str: str}, _NONE),
+    "aliases": ({str: [str]}, _NONE),
+    "depth": (int, _NONE),
+    "origin": (str, _NONE),
+    "status": (str, _NONE),
+}
+
+
+def _topic_fits(t: dict) -> bool:
+    """A fast yes for a well-formed topic (the common case, in plain loops: a third of
+    the time of generator expressions); :data:`TOPIC_SHAPE` says what is wrong otherwise."""
+    g = t.get
+    for k in _TEXTS:
+        if type(g(k)) not in _TEXT_OR_NONE:
+            return False
+    for k in _LISTS:
+        v = g(k)
+        if v is not None:
+            if type(v) is not list:
+                return False
+            for x in v:
+                if type(x) is not str:
+                    return False
+    v = g("labels")
+    if v is not None:
+        if type(v) is not dict:
+            return False
+        for x in v.values():
+            if type(x) is not str:
+                return False
+    v = g("aliases")
+    if v is not None:
+        if type(v) is not dict:
+            return False
+        for xs in v.values():
+            if type(xs) is not list:
+                return False
+            for x in xs:
+                if type(x) is not str:
+                    return False
+    d = g("depth")
+    return (
+        (d is None or type(d) is int)
+        and type(g("origin")) in _TEXT_OR_NONE
+        and type(g("status")) in _TEXT_OR_NONE
+    )
 
 
 def read_topics(path: Path | str, missing_ok: bool = False) -> dict[str, TopicRecord]:
@@ -150,17 +212,36 @@ def read_lexicon(path: Path | str) -> list[LexiconRow]:
 def read_report(folder: Path | str) -> Report | None:
     """The ``report.json`` of a folder, or None when it has none."""
     path = Path(folder) / REPORT_FILE
-    if not path.is_file():
+    if not os.path.lexists(path):
         return None
-    try:
-        obj = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise BuildFileError(f"{path}:{exc.lineno}: malformed report ({exc.msg})") from None
-    except UnicodeDecodeError:
-        raise BuildFileError(f"{path}: not UTF-8 text") from None
+    obj = read_json(path, "a compile report", BuildFileError)
     if not isinstance(obj, dict):
         raise BuildFileError(f"{path}:1: a report is a JSON object")
+    problem = shape_error(obj, REPORT_SHAPE)
+    if problem:
+        raise BuildFileError(f"{path}: {problem}")
     return Report.from_json(obj)
+
+
+_RECORDS = ([dict], _NONE)
+#: the types of the parts of ``report.json`` that readers look into
+REPORT_SHAPE = {
+    "ambiguous": _RECORDS,
+    "carried_names": _RECORDS,
+    "counts": ({str: (int, float, {str: (int, float)})}, _NONE),
+    "curation": ({"applied": _RECORDS, "stale": _RECORDS, "carried": _RECORDS}, _NONE),
+    "cycles": _RECORDS,
+    "dropped_aliases": _RECORDS,
+    "dropped_topics": _RECORDS,
+    "graphs": _RECORDS,
+    "id_clashes": (list, _NONE),
+    "lost_names": _RECORDS,
+    "new_roots": ([str], _NONE),
+    "reattached": (list, _NONE),
+    "reductions": ([list], _NONE),
+    "release_deprecations": _RECORDS,
+    "spec": (dict, _NONE),
+}
 
 
 def read_scheme(folder: Path | str, report: Report | None = None) -> Scheme:
