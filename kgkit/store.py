@@ -464,16 +464,23 @@ def reclaim_graph(
     limit: int | None = None,
     chunk: int = RECLAIM_CHUNK,
     progress: Callable[[int], None] | None = None,
+    at_most: int | None = None,
 ) -> int | None:
     """Remove the statements of one unreferenced content graph, then its name.
 
-    At most ``limit`` statements (``None``: all), ``chunk`` per transaction. Returns
-    the number removed when the graph is gone, ``None`` when the limit stopped it
-    first. Refuses a content graph that a graph name points at.
+    At most ``limit`` statements (``None``: all), ``chunk`` per transaction. With
+    ``at_most``, a graph holding more statements than that is not touched at all.
+    Returns the number removed when the graph is gone, ``None`` when it is not (the
+    limit stopped it, or it was larger than ``at_most``). Refuses a content graph
+    that a graph name points at.
     """
     if content_iri in set(current_graphs(store).values()):
         raise StoreError(f"{content_iri} is the content of a graph; drop the graph first")
     node = ox.NamedNode(content_iri)
+    if at_most is not None:
+        held = store.quads_for_pattern(None, None, None, node)
+        if sum(1 for _ in itertools.islice(held, at_most + 1)) > at_most:
+            return None  # too large to remove now: left whole for a later reclaim
     removed = 0
     while True:
         n = chunk if limit is None else min(chunk, limit - removed)

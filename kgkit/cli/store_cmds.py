@@ -33,7 +33,7 @@ def drop_command(ctx, name, as_json):
     with open_store(ws.store_path, write=True) as store:
         info = drop_graph(store, name)
         # small content goes at once; a large one would take longer than its import did
-        gone = reclaim_graph(store, info.content, limit=AUTO_RECLAIM) is not None
+        gone = reclaim_graph(store, info.content, at_most=AUTO_RECLAIM) is not None
     if as_json:
         echo_json(
             {

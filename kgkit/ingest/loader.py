@@ -634,7 +634,7 @@ def _discard(store: ox.Store, content: str, exc: BaseException) -> None:
     if isinstance(exc, KeyboardInterrupt | SystemExit):
         return
     with contextlib.suppress(OSError):
-        reclaim_graph(store, content, limit=AUTO_RECLAIM)
+        reclaim_graph(store, content, at_most=AUTO_RECLAIM)
 
 
 def _switch(store: ox.Store, staged: list[_Staged]) -> None:
@@ -653,7 +653,7 @@ def _switch(store: ox.Store, staged: list[_Staged]) -> None:
             s.summary.replaced = True
             # the old content is unreferenced now: removed at once when small, otherwise
             # left for `kgkit reclaim` (removing 0.4M statements takes 3-5x loading them)
-            s.summary.reclaimable = not reclaim_graph(store, old, limit=AUTO_RECLAIM)
+            s.summary.reclaimable = reclaim_graph(store, old, at_most=AUTO_RECLAIM) is None
 
 
 def import_into_store(
