@@ -23,6 +23,7 @@ aliases behind them can be written out as curation edits that remove them.
 
 from __future__ import annotations
 
+import os
 import re
 import unicodedata
 from collections.abc import Iterable
@@ -32,7 +33,8 @@ from pathlib import Path
 import ahocorasick_rs
 import yaml
 
-from kgkit.errors import KgkitError, ProbeError
+from kgkit.errors import ArgumentError, KgkitError, ProbeError
+from kgkit.inputs import file_error, read_text_file
 from kgkit.vocab.folder import BuildFileError, read_lexicon, read_topics
 from kgkit.vocab.model import LexiconRow, TopicRecord
 
@@ -317,10 +319,20 @@ class CorpusReport:
 
 
 def _read_text(path: Path) -> str:
-    try:
-        return path.read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise ProbeError(f"{path}: not UTF-8 text (byte {exc.start})") from None
+    return read_text_file(path, "a corpus document", ProbeError)
+
+
+def _documents(folder: Path) -> list[Path]:
+    """The ``.txt`` files under ``folder``; a sub-folder that cannot be listed is an
+    error, never silently skipped."""
+
+    def fail(exc: OSError) -> None:
+        raise file_error(exc.filename or folder, exc, "list", ProbeError)
+
+    out = []
+    for dirpath, _, filenames in os.walk(folder, onerror=fail):
+        out.extend(Path(dirpath) / f for f in filenames if f.endswith(".txt"))
+    return sorted(out)
 
 
 def probe_corpus(
@@ -339,8 +351,8 @@ def probe_corpus(
     if not folder.is_dir():
         raise ProbeError(f"{folder}: not a folder of .txt documents")
     if not 0 < threshold <= 1:
-        raise ProbeError(f"threshold must be a share between 0 and 1, not {threshold}")
-    files = sorted(folder.rglob("*.txt"))
+        raise ArgumentError("threshold", f"must be a share between 0 and 1, not {threshold}")
+    files = _documents(folder)
     if not files:
         raise ProbeError(f"{folder}: no .txt documents in this folder")
     seen: dict[str, int] = {}

@@ -484,3 +484,64 @@ def test_vocabulary_folder_with_wrong_typed_fields_is_one_line(
         assert r.exit_code == 1
         line = one_error_line(r)
         assert str(folder / name) in line and cause in line
+
+
+@pytest.fixture
+def demo_copy(demo_workspace, tmp_path):
+    """A copy of the demo workspace (compiled, released, with its corpus)."""
+    root = tmp_path / "demo"
+    shutil.copytree(demo_workspace["root"], root)
+    yield root
+    for dirpath, _, filenames in os.walk(root):
+        os.chmod(dirpath, 0o755)
+        for f in filenames:
+            os.chmod(os.path.join(dirpath, f), 0o644)
+
+
+@pytest.mark.parametrize(
+    "target, mode, args, cause",
+    [
+        ("corpus/article-001.txt", 0, ["probe", "RELEASE", "--corpus", "corpus"], "cannot read"),
+        ("RELEASE/lexicon.tsv", 0, ["probe", "RELEASE", "canoe"], "permission denied"),
+        ("RELEASE/manifest.json", 0, ["verify", "RELEASE"], "manifest.json: cannot be read"),
+        ("vocab/tidewell", 0o555, ["compile", "vocab/tidewell.yaml"], "permission denied"),
+        ("out", 0o555, ["review", "RELEASE", "-o", "out/page.html"], "permission denied"),
+    ],
+    ids=["corpus-file", "release-file", "manifest", "vocab-name-folder", "review-output-folder"],
+)
+def test_unreadable_or_unwritable_demo_path_is_one_line(demo_copy, target, mode, args, cause):
+    release = next(
+        p for p in sorted((demo_copy / "vocab" / "tidewell").iterdir()) if p.name[0] == "1"
+    )
+    rel = str(release.relative_to(demo_copy))
+    path = demo_copy / target.replace("RELEASE", rel)
+    if target == "out":
+        path.mkdir()
+    os.chmod(path, mode)
+    r = _run_unprivileged([a.replace("RELEASE", rel) for a in args], demo_copy)
+    lines = r.stderr.splitlines()
+    assert r.returncode == 1 and len(lines) == 1 and lines[0].startswith("Error: "), r.stderr
+    assert cause in lines[0]
+
+
+def test_unwritable_shell_history_warns_once_and_the_shell_goes_on(demo_copy):
+    history = demo_copy / ".kgkit" / "shell-history"
+    history.parent.mkdir(exist_ok=True)
+    history.write_text("", encoding="utf-8")
+    os.chmod(history, 0o444)
+    prefix = []
+    if os.geteuid() == 0:
+        prefix = ["setpriv", "--bounding-set", "-dac_override,-dac_read_search"]
+    r = subprocess.run(
+        [*prefix, sys.executable, "-m", "kgkit", "shell"],
+        cwd=demo_copy,
+        input="ASK { ?s ?p ?o };\nASK { ?s ?p ?o };\n",
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.count("true") == 2
+    assert r.stderr.splitlines() == [
+        f"Warning: {history}: cannot write (permission denied); history is not kept"
+    ]

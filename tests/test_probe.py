@@ -8,6 +8,7 @@ import pytest
 from conftest import DATA
 
 from kgkit.cli import cli
+from kgkit.errors import ArgumentError
 from kgkit.probe import (
     ProbeError,
     curation_edits_for,
@@ -217,8 +218,8 @@ def test_corpus_errors(tmp_path, lexicon):
     with pytest.raises(ProbeError, match="no .txt documents in this folder"):
         probe_corpus(lexicon, tmp_path)
     (tmp_path / "a.txt").write_text("canoe", encoding="utf-8")
-    with pytest.raises(ProbeError, match="threshold must be a share between 0 and 1, not 0"):
+    with pytest.raises(ArgumentError, match="threshold: must be a share between 0 and 1, not 0"):
         probe_corpus(lexicon, tmp_path, threshold=0)
     (tmp_path / "b.txt").write_bytes(b"\xffcanoe")
-    with pytest.raises(ProbeError, match=r"b.txt: not UTF-8 text \(byte 0\)"):
+    with pytest.raises(ProbeError, match=r"b.txt:1:1: not UTF-8 text \(byte \\xff\)"):
         probe_corpus(lexicon, tmp_path)
