@@ -135,3 +135,22 @@ def test_common_words_missing_from_the_review_page(built):
     assert 'id="common"' in page and "Common words" in page
     round_zipf = f"{wordfreq.zipf_frequency('round', 'en'):.2f}"
     assert f"<td>round</td><td>en</td><td>{round_zipf}</td>" in page
+
+
+def test_lexicon_with_or_without_source_column_not_read(tmp_path):
+    from kgkit.probe import ProbeError
+
+    head = "alias\tmatch_key\ttopic\tlanguage\tkind\tshared_by"
+    (tmp_path / "lexicon.tsv").write_text(
+        head + "\tsource\ntacos\ttacos\ttaco\ten\tinflected\t1\ttaco\n", encoding="utf-8"
+    )
+    ((hit,),) = [load_lexicon(tmp_path).find("two tacos")]
+    assert hit.candidates[0].aliases == ("tacos (en, inflected)",)
+    (tmp_path / "lexicon.tsv").write_text(
+        head + "\ntaco\ttaco\ttaco\ten\tpreferred\t1\n", encoding="utf-8"
+    )
+    assert [h.text for h in load_lexicon(tmp_path).find("a taco")] == ["taco"]
+    (tmp_path / "lexicon.tsv").write_text(head + "\tnotes\n", encoding="utf-8")
+    with pytest.raises(ProbeError) as exc:
+        load_lexicon(tmp_path)
+    assert "lexicon.tsv:1: expected the tab-separated header" in str(exc.value)
