@@ -113,10 +113,18 @@ def test_second_release_follows_the_changed_dump_and_curation(demo_workspace):
         ("moved", "fish-smoking"),
         ("alias-removed", "tidewell-region"),
     } <= kinds
-    assert [s["target"] for s in log["stale_curation"]] == ["seaweed-foraging"]
+    # the edit aimed at the redirected topic is carried to its successor, not stale,
+    # and the successor inherits every name the redirected topic had in 1.0.0
+    assert log["stale_curation"] == []
     topics = {t["id"]: t for t in map(json.loads, (second / "topics.jsonl").open(encoding="utf-8"))}
     assert topics["seaweed-foraging"]["status"] == "deprecated"
     assert topics["seaweed-foraging"]["replaced_by"] == "shore-foraging"
+    report = json.loads((second / "report.json").read_text(encoding="utf-8"))
+    assert [e["carried"] for e in report["curation"]["carried"]] == [
+        {"from": "seaweed-foraging", "to": "shore-foraging"}
+    ]
+    inherited = topics["shore-foraging"]["aliases"]
+    assert {"seaweed foraging", "seaweed gathering", "kelp gathering"} <= set(inherited["en"])
 
 
 def test_demo_steps_say_what_they_did(demo_workspace):

@@ -13,7 +13,6 @@ the compile no longer has is described in :mod:`kgkit.vocab.succession`.
 
 from __future__ import annotations
 
-import dataclasses
 import datetime as _dt
 import json
 import os
@@ -43,7 +42,7 @@ from kgkit.release.versioning import (
     temp_prefix,
 )
 from kgkit.vocab.folder import read_vocabulary, vocabulary_files
-from kgkit.vocab.succession import deprecate_gone, find_replacements, same_as_links
+from kgkit.vocab.succession import find_replacements
 from kgkit.workspace import Workspace
 
 __all__ = [
@@ -69,6 +68,19 @@ class ReleaseResult:
     stale: list[dict]
     manifest: dict
     warnings: list[str] = field(default_factory=list)
+    #: the release gates waived, as the manifest records them (``overrides``)
+    overrides: list[dict] = field(default_factory=list)
+    #: the released vocabulary (for labels beside ids in what a person reads)
+    vocabulary: object = None
+
+    def topic_text(self, topic_id: str | None) -> str:
+        """A topic as a person reads it: its label beside its id."""
+        from kgkit.release.gates import topic_text
+
+        if topic_id is None:
+            return "(no replacement)"
+        v = self.vocabulary
+        return topic_text(v.display_label(topic_id) if v is not None else None, topic_id)
 
     def summary(self) -> dict:
         return {
@@ -82,6 +94,7 @@ class ReleaseResult:
             "stale": len(self.stale),
             "content_sha256": self.manifest["content_sha256"],
             "warnings": self.warnings,
+            "waived": [o["gate"] for o in self.overrides],
         }
 
 
@@ -183,6 +196,8 @@ def make_release(
     strict: bool = False,
     now: _dt.datetime | None = None,
     progress=None,
+    waive: tuple[str, ...] | list[str] = (),
+    reason: str | None = None,
 ) -> ReleaseResult:
     """Compile the spec afresh and release it as ``vocab/<name>/<version>/``.
 
@@ -192,10 +207,18 @@ def make_release(
     written; the build folder holds the fresh compile). Raises :class:`ReleaseError`
     when the release folder exists, or when the store or an input file changed while
     the release was being made.
+
+    Before anything is written the vocabulary must pass the release gates
+    (:mod:`kgkit.release.gates`); otherwise :class:`~kgkit.errors.GateError` lists
+    every problem. ``waive``: gate names (or ``all``) to release past anyway, with
+    ``reason``; the manifest (``overrides``) and the changelog record them.
     """
-    from kgkit.vocab.compile import compile_vocabulary
+    from kgkit.release.gates import check_waivers, gate_error, vocabulary_gates, waived_record
+    from kgkit.vocab.compile import compile_vocabulary, display_languages
+    from kgkit.vocab.curation import load_curation
     from kgkit.vocab.spec import load_spec
 
+    waived = check_waivers(waive, reason)
     spec = load_spec(ws, spec_path)
     if "jsonl" not in spec.outputs:
         raise ReleaseError(f"{spec.path}: a release needs the 'jsonl' output (key 'outputs')")
@@ -212,38 +235,47 @@ def make_release(
 
     # the inputs, taken before the compile and checked again after it
     inputs = _inputs(ws, spec)
-    result = compile_vocabulary(ws, spec, strict=strict, progress=progress)
-    vocab = result.vocabulary
-    new = vocab.by_id
-
+    # the compile follows on the previous release: its topics that are gone stay as
+    # deprecated and hand their names to their replacements (kgkit.vocab.succession)
+    before = None
     old: dict = {}
     old_report = None
     if previous is not None:
-        before = read_vocabulary(home / str(previous))
+        before = read_vocabulary(home / str(previous), display_languages(spec))
         old, old_report = before.by_id, before.report
-
-    # deprecations: topics of the previous release the compile no longer has
-    def graph_links(sources: list[str]) -> dict[str, set[str]]:
-        from kgkit.query import connect
-
-        with connect(ws) as backend:
-            return same_as_links(backend, ws.profile["same_as"], sources, spec.graphs)
-
-    records, deprecated = deprecate_gone(old.values(), new, graph_links)
-    ordered = list(records.values())
+    result = compile_vocabulary(
+        ws, spec, strict=strict, progress=progress, previous=before, gates=False
+    )  # the gates run below, on the files the release writes
+    vocab = result.vocabulary
+    records = vocab.by_id
+    ordered = vocab.topics
     report = vocab.report
-    if deprecated or len(records) != len(new):
-        report = dataclasses.replace(
-            report,
-            counts=dict(report.counts, deprecated=sum(1 for t in ordered if not t.is_active)),
-            release_deprecations=deprecated,
-        )
-        vocab = dataclasses.replace(vocab, topics=tuple(ordered), report=report)
+    deprecated = list(report.release_deprecations or [])
     files = {
         name: make()
         for name, make in vocabulary_files(vocab, spec.outputs).items()
         if name != "report.txt"  # the human summary stays in the build
     }
+
+    # the gates, on the vocabulary as it would be released
+    problems = vocabulary_gates(
+        ws,
+        spec,
+        vocab,
+        load_curation(spec.curation) if spec.curation else (),
+        previous=before if previous is not None else None,
+        previous_name=f"release {previous}" if previous is not None else None,
+        skos=files.get("skos.ttl"),
+    )
+    refused = [p for p in problems if p.gate not in waived]
+    if refused:
+        raise gate_error(
+            spec.path,
+            refused,
+            "nothing released",
+            "waive='GATE' with reason='WHY' releases anyway",
+        )
+    overrides = waived_record(problems, waived, reason)
 
     diff = diff_topics(
         old, records, old_report, report, str(previous) if previous else "none", "release"
@@ -262,6 +294,7 @@ def make_release(
         level,
         version is not None,
         stale,
+        overrides,
     )
     diff = VocabDiff(str(previous) if previous else "none", str(ver), diff.changes)
     files["changelog.json"] = changelog_json(cl)
@@ -296,6 +329,7 @@ def make_release(
                 "changes": len(diff.changes),
                 "stale_curation": len(stale),
             },
+            **({"overrides": overrides} if overrides else {}),
             "released": (now or _dt.datetime.now(_dt.UTC))
             .astimezone(_dt.UTC)
             .strftime("%Y-%m-%dT%H:%M:%SZ"),
@@ -310,5 +344,5 @@ def make_release(
         raise
     return ReleaseResult(
         spec.name, str(ver), str(previous) if previous else None, level, target, diff,
-        deprecated, stale, manifest, found.warnings(),
+        deprecated, stale, manifest, found.warnings(), overrides, vocab,
     )  # fmt: skip

@@ -29,7 +29,7 @@ import contextlib
 import gc
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import NamedTuple
 
@@ -48,7 +48,7 @@ from kgkit.vocab.aliases import (
     settle_names,
 )
 from kgkit.vocab.curation import CurationResult, Edit, apply_curation, load_curation
-from kgkit.vocab.folder import vocabulary_files, write_vocabulary
+from kgkit.vocab.folder import read_vocabulary, vocabulary_files, write_vocabulary
 from kgkit.vocab.hierarchy import Hierarchy, repair_hierarchy, restrict_to, subtree
 from kgkit.vocab.model import (
     ACTIVE,
@@ -64,6 +64,18 @@ from kgkit.vocab.model import (
 from kgkit.vocab.prune import prune_topics
 from kgkit.vocab.select import Fetched, fetch_entities, run_popularity, select_topics
 from kgkit.vocab.spec import LanguageRules, VocabSpec, load_spec
+from kgkit.vocab.succession import (
+    GraphLinks,
+    add_deprecated,
+    cached_links,
+    carried_results,
+    carry_names,
+    carrying_resolver,
+    early_replacements,
+    lost_names,
+    plan_succession,
+    same_as_links,
+)
 from kgkit.workspace import Workspace
 
 __all__ = [
@@ -78,6 +90,7 @@ __all__ = [
     "display_languages",
     "exclude_topics",
     "identify_topics",
+    "latest_release",
     "make_lexicon",
     "make_records",
     "make_report",
@@ -107,6 +120,8 @@ class CompileResult:
     output: Path
     summary: dict
     files: list[str]
+    #: release gate problems (kgkit.release.gates.GateProblem), reported as warnings
+    problems: list = field(default_factory=list)
 
     @property
     def report(self) -> dict:
@@ -183,18 +198,49 @@ def _stale_error(spec: VocabSpec, edits, stale: list[dict], total: int | None = 
 
 
 def curate_topics(
-    ws: Workspace, spec: VocabSpec, edits: list[Edit], ident: Identified, strict: bool = False
+    ws: Workspace,
+    spec: VocabSpec,
+    edits: list[Edit],
+    ident: Identified,
+    strict: bool = False,
+    previous: Vocabulary | None = None,
+    graph_links: GraphLinks | None = None,
 ) -> CurationResult:
     """Stage ``curation``: apply the curation overlay to the working topics and parent
-    links (in place). With ``strict``, a stale edit raises :class:`SpecError`."""
+    links (in place). With ``strict``, a stale edit raises :class:`SpecError`.
+
+    With the ``previous`` release, an edit aimed at one of its topics that the
+    selection no longer has is carried to that topic's replacement (see
+    :func:`kgkit.vocab.succession.early_replacements`) and listed in
+    ``curation.carried`` of the report; with ``strict`` it is stale instead.
+    """
     lang_rules = spec.languages
+    resolve = _resolver(ws, ident.topics, ident.ids)
+    carried: dict[str, tuple[str, str]] = {}
+    if previous is not None and not strict and edits:
+        reps: dict[str, str] = {}
+
+        def early() -> dict[str, str]:  # asked only when an edit names a topic gone
+            if not reps:
+                reps.update(early_replacements(previous, ident.topics, graph_links))
+                reps.setdefault("", "")
+            return reps
+
+        resolve = carrying_resolver(resolve, ident.topics, previous, early, carried)
     curated = apply_curation(
         list(edits),
         ident.topics,
         ident.graph_parents,
-        _resolver(ws, ident.topics, ident.ids),
+        resolve,
         lambda t: choose_labels(t.labels, lang_rules, t.label_override)[0],
     )
+    if carried:
+        for entry in curated.applied:
+            refs = [entry.get(f) for f in ("target", "into", "parent")]
+            hits = [carried[r] for r in refs if isinstance(r, str) and r in carried]
+            if hits:
+                entry["carried"] = {"from": hits[0][0], "to": hits[0][1]}
+                curated.carried.append(entry)
     if strict and curated.stale:
         raise _stale_error(spec, edits, curated.stale, len(curated.stale))
     return curated
@@ -519,9 +565,12 @@ def make_report(
     lexicon: tuple[LexiconRow, ...],
     extra: dict | None = None,
     graphs: list[dict] | None = None,
+    previous: dict | None = None,
 ) -> Report:
     """Stage ``report``: counts and every decision of the compile with its reason;
-    ``graphs``: the graphs the fetch read (:attr:`Fetched.graphs_read`)."""
+    ``graphs``: the graphs the fetch read (:attr:`Fetched.graphs_read`); ``previous``:
+    with a previous release, its fields ``carried_names``, ``lost_names`` and
+    (when topics of it were deprecated) ``release_deprecations``, counted as well."""
     topics = ident.topics
     dropped_topics = sorted(
         (
@@ -542,6 +591,7 @@ def make_report(
         "aliases": sum(len(v) for r in active_records for v in r.aliases.values()),
         "ambiguous_keys": len(names.ambiguous),
         "curation_applied": len(curated.applied),
+        "curation_overridden": len(curated.overridden),
         "curation_stale": len(curated.stale),
         "cycles_broken": len(h.cycles),
         "deprecated": len(records) - len(active_records),
@@ -560,6 +610,16 @@ def make_report(
         "selected": len(selected),
         "topics": len(active_records),
     }
+    curation = {
+        "applied": curated.applied,
+        "overridden": curated.overridden,
+        "stale": curated.stale,
+    }
+    if previous is not None:
+        counts["carried_names"] = sum(1 for c in previous["carried_names"] if c["result"] == "kept")
+        counts["lost_names"] = len(previous["lost_names"])
+        counts["curation_carried"] = len(curated.carried)
+        curation["carried"] = curated.carried
     extra = dict(extra or {})
     common = spec.aliases.common_words
     if common is not None:
@@ -572,7 +632,7 @@ def make_report(
     return Report(
         ambiguous=names.ambiguous,
         counts=counts,
-        curation={"applied": curated.applied, "stale": curated.stale},
+        curation=curation,
         cycles=h.cycles,
         dropped_aliases=dropped_aliases,
         dropped_topics=dropped_topics,
@@ -583,6 +643,7 @@ def make_report(
         spec={"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
         graphs=list(graphs or []),
         extra=extra,
+        **(previous or {}),
     )
 
 
@@ -595,13 +656,21 @@ def build_vocabulary(
     popularity: dict[str, float] | None = None,
     strict: bool = False,
     progress: Callable[[str], None] | None = None,
+    previous: Vocabulary | None = None,
+    graph_links: GraphLinks | None = None,
 ) -> Vocabulary:
     """Compile in memory from already fetched data (no store needed).
+
+    ``previous``: the latest release of the vocabulary, if any: its topics that the
+    compile no longer has stay as deprecated, with their replacement, and hand their
+    names to it (see :mod:`kgkit.vocab.succession`). ``graph_links``: source IRIs ->
+    IRIs linked to them by same-as predicates (a store look-up), to find replacements.
 
     The stages, in order: ids (:func:`identify_topics`), curation
     (:func:`curate_topics`), exclusions (:func:`exclude_topics`), labels
     (:func:`choose_preferred_labels`), prune (:func:`prune_stage`), hierarchy
-    (:func:`~kgkit.vocab.hierarchy.repair_hierarchy`), aliases
+    (:func:`~kgkit.vocab.hierarchy.repair_hierarchy`), succession
+    (:func:`~kgkit.vocab.succession.plan_succession`, with a previous release), aliases
     (:func:`collect_aliases`), records (:func:`make_records`), lexicon
     (:func:`make_lexicon`), report (:func:`make_report`).
     """
@@ -614,8 +683,9 @@ def build_vocabulary(
     ident = identify_topics(selected, fetched)
     topics, graph_parents = ident.topics, ident.graph_parents
 
+    links = cached_links(graph_links)
     step("applying the curation")
-    curated = curate_topics(ws, spec, edits, ident, strict)
+    curated = curate_topics(ws, spec, edits, ident, strict, previous, links)
     active = {tid for tid, t in topics.items() if t.status == ACTIVE}
 
     dropped = exclude_topics(
@@ -625,6 +695,7 @@ def build_vocabulary(
         active,
     )
     active -= set(dropped)
+    curated.settle_exclusions(dropped)  # edits on topics a curation exclude took away
 
     step("choosing preferred labels")
     prefs, missing_drop = choose_preferred_labels(
@@ -641,22 +712,42 @@ def build_vocabulary(
     step("repairing the hierarchy")
     h = repair_hierarchy(graph_parents, active)
 
-    step("cleaning aliases")
     keys = key_cache()
+    replaced_by = merge_replacements(curated.merged, active, topics)
+    succession = already = None
+    if previous is not None:
+        step("following the previous release")
+        succession = plan_succession(previous, topics, active, replaced_by, links)
+        already = carry_names(succession, topics, prefs, keys)
+
+    step("cleaning aliases")
     names = collect_aliases(spec, topics, active, prefs, curated, keys, edits, strict)
 
     step("making records")
-    replaced_by = merge_replacements(curated.merged, active, topics)
     records, label_tags = make_records(ws, spec, topics, active, replaced_by, prefs, names, h)
+    previous_fields: dict = {}
+    if previous is not None:
+        by_id, deprecations = add_deprecated(
+            previous, {r.id: r for r in records}, succession.replacements
+        )
+        if len(by_id) != len(records):  # the previous release's topics, deprecated
+            previous_fields["release_deprecations"] = deprecations
+            records = list(by_id.values())
 
     step("making the lexicon")
     lexicon, unlisted = make_lexicon(records, names, keys)
     names.dropped.extend(unlisted)
+    if previous is not None:
+        carried = carried_results(succession, already, lexicon, names.dropped, keys)
+        previous_fields["carried_names"] = carried
+        previous_fields["lost_names"] = lost_names(
+            previous, {r.id: r for r in records}, lexicon, names.dropped, carried
+        )
 
     step("making the report")
     report = make_report(
         spec, selected, ident, curated, h, dropped, names, records, lexicon,
-        graphs=fetched.graphs_read,
+        graphs=fetched.graphs_read, previous=previous_fields if previous is not None else None,
     )  # fmt: skip
     return Vocabulary(
         scheme_of(spec), tuple(records), lexicon, report, label_tags, display_languages(spec)
@@ -680,11 +771,23 @@ def _without_cyclic_gc() -> Iterator[None]:
             gc.enable()
 
 
+def latest_release(spec: VocabSpec) -> Path | None:
+    """The folder of the newest release of the spec's vocabulary (``vocab/NAME/VERSION``),
+    or None before the first release."""
+    from kgkit.release.versioning import list_releases
+
+    home = spec.path.parent / spec.name
+    releases = list_releases(home)
+    return home / str(releases[-1]) if releases else None
+
+
 def compile_vocabulary(
     ws: Workspace,
     spec_path: VocabSpec | Path | str,
     strict: bool = False,
     progress: Callable[[str], None] | None = None,
+    previous: Vocabulary | bool | None = True,
+    gates: bool = True,
 ) -> CompileResult:
     """Compile the vocabulary of the spec at ``spec_path`` (or of an already parsed
     :class:`~kgkit.vocab.spec.VocabSpec`) into ``vocab/<name>/build/``.
@@ -692,11 +795,24 @@ def compile_vocabulary(
     Returns a :class:`CompileResult`: the :class:`~kgkit.vocab.model.Vocabulary`
     in memory, the folder written and the summary.
 
+    ``previous``: the release the compile follows on (see :func:`build_vocabulary`):
+    True (the default) reads the latest release of the vocabulary, if there is one;
+    a :class:`~kgkit.vocab.model.Vocabulary` is used as it is; None or False, none.
+
+    The cyclic garbage collector is paused while the compile runs and restored to
+    its former state before this function returns (see ``_without_cyclic_gc``).
+
+    ``gates``: check the vocabulary against the release gates
+    (:mod:`kgkit.release.gates`); the problems are returned as warnings
+    (``problems``), or, with ``strict``, raised as :class:`kgkit.errors.GateError`
+    before the build is written.
+
     Raises :class:`kgkit.errors.SpecError` for a bad spec or curation file (before
     any work) and, with ``strict``, for a stale curation edit; the previous build
     is then untouched.
     """
     from kgkit.query import connect
+    from kgkit.release.versioning import clear_leftovers
 
     def step(text: str) -> None:
         if progress:
@@ -704,6 +820,18 @@ def compile_vocabulary(
 
     spec = spec_path if isinstance(spec_path, VocabSpec) else load_spec(ws, spec_path)
     edits = load_curation(spec.curation) if spec.curation else []
+    previous_name = None
+    if previous is True:
+        folder = latest_release(spec)
+        previous = read_vocabulary(folder, display_languages(spec)) if folder else None
+        previous_name = f"release {folder.name}" if folder else None
+    elif previous is False:
+        previous = None
+
+    def graph_links(sources: list[str]) -> dict[str, set[str]]:
+        with connect(ws) as backend:
+            return same_as_links(backend, ws.profile["same_as"], sources, spec.graphs)
+
     with _without_cyclic_gc(), connect(ws) as backend:
         step("selecting topics")
         selected = select_topics(backend, spec, ws)
@@ -718,9 +846,21 @@ def compile_vocabulary(
         )
         popularity = run_popularity(backend, spec) if spec.prune.min_popularity else None
     with _without_cyclic_gc():
-        vocab = build_vocabulary(ws, spec, selected, fetched, edits, popularity, strict, step)
+        vocab = build_vocabulary(
+            ws, spec, selected, fetched, edits, popularity, strict, step, previous, graph_links
+        )
         del fetched
+    problems = []
+    if gates:
+        from kgkit.release.gates import gate_error, vocabulary_gates
+
+        step("checking the release gates")
+        problems = vocabulary_gates(ws, spec, vocab, edits, previous, previous_name)
+        if strict and problems:
+            raise gate_error(spec.path, problems, "no build written", "strict=True")
+    with _without_cyclic_gc():
         step("writing the files")
+        clear_leftovers(spec.build_dir.parent)
         out = write_vocabulary(vocab, spec.build_dir, spec.outputs)
     c = vocab.report.counts
     summary = {
@@ -734,7 +874,14 @@ def compile_vocabulary(
         "name": spec.name,
         "output": str(out),
         "stale": c["curation_stale"],
+        "curation": {
+            "applied": c["curation_applied"],
+            "overridden": c.get("curation_overridden", 0),
+            "carried": c.get("curation_carried", 0),
+            "stale": c["curation_stale"],
+        },
         "topics": c["topics"],
+        "gate_problems": [p.to_json() for p in problems],
     }
     files = sorted(vocabulary_files(vocab, spec.outputs))
-    return CompileResult(vocab, out, summary, files)
+    return CompileResult(vocab, out, summary, files, problems)
