@@ -293,15 +293,6 @@ def test_run_query_sees_template_text_exactly(ws):
     assert [(r[0].value, r[1].value) for r in rows] == [(T + "rowing", T + "lakeport-regatta")]
 
 
-@pytest.mark.parametrize("module", ["kgkit.query", "kgkit.templates", "kgkit.shell"])
-def test_doctests(module):
-    import doctest
-    import importlib
-
-    result = doctest.testmod(importlib.import_module(module))
-    assert result.failed == 0 and result.attempted > 0, module
-
-
 def _graph_ws(tmp_path, section):
     from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
 
