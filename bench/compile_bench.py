@@ -148,7 +148,7 @@ def prepare(folder: Path, entities: int) -> Path:
     counts = write_synthetic_dump(dump, entities=entities, seed=7, roots=1)
     t0 = time.perf_counter()
     import_files(
-        ws, [str(dump)], ImportOptions(graph="synth", slice=make_slice(ws, keep="profile"))
+        ws, [str(dump)], ImportOptions(graph="synth", slice=make_slice(ws, scope="profile"))
     )
     print(
         f"  {entities:,} entities: dump of {counts['triples']:,} triples imported "

@@ -10,13 +10,13 @@ subprocess (peak RSS of that process from ``os.wait4``):
   import (one content graph per import, for atomic replacement): a second baseline that
   shows what the store itself costs for that;
 - kgkit: ``kgkit.ingest.import_files`` into a fresh workspace (the library call behind
-  ``kgkit import``), with the default options, or ``--keep profile``, serial (``--jobs 1``)
+  ``kgkit import``), with the default options, or ``--scope profile``, serial (``--jobs 1``)
   and with two worker processes (``--jobs 2``, issue 7).
 
 Targets (issue 2): at 1M our throughput >= 0.85x plain; at 4M our peak memory within 1.3x
-of our own peak at 1M and throughput >= 0.6x plain; with --keep profile on the mostly
+of our own peak at 1M and throughput >= 0.6x plain; with --scope profile on the mostly
 out-of-profile dump, faster than plain loading of the whole dump. Issue 7: --jobs 2 at least
-1.6x the serial import with --keep profile.
+1.6x the serial import with --scope profile.
 
     python bench/import_bench.py                 # 1M and 4M (a few minutes)
     python bench/import_bench.py --scale 0.1     # a quick smoke run (100k / 400k)
@@ -61,9 +61,9 @@ def _worker(mode: str, dump: str, where: str, extra: list[str]) -> None:
         from kgkit.workspace import init_workspace
 
         ws = init_workspace(where)
-        keep = "profile" if "profile" in extra else "all"
+        scope = "profile" if "profile" in extra else "all"
         jobs = int(extra[extra.index("--jobs") + 1]) if "--jobs" in extra else 1
-        opts = ImportOptions(graph="bench", slice=make_slice(ws, keep=keep), jobs=jobs)
+        opts = ImportOptions(graph="bench", slice=make_slice(ws, scope=scope), jobs=jobs)
         t0 = time.perf_counter()  # workspace creation is not part of the import
         (summary,) = import_files(ws, [dump], opts)
         out = summary.to_dict()
@@ -133,8 +133,8 @@ def main(argv: list[str] | None = None) -> int:
         ("4M", "plain-named", []),
         ("4M", "kgkit", []),
         ("mostly-other", "plain", []),
-        ("mostly-other", "kgkit --keep profile", ["profile"]),
-        ("mostly-other", "kgkit --keep profile --jobs 2", ["profile", "--jobs", "2"]),
+        ("mostly-other", "kgkit --scope profile", ["profile"]),
+        ("mostly-other", "kgkit --scope profile --jobs 2", ["profile", "--jobs", "2"]),
     ]
     if args.only:
         runs = [r for r in runs if r[0] in args.only]
@@ -191,15 +191,15 @@ def main(argv: list[str] | None = None) -> int:
             -1.3,
         ),
         (
-            "--keep profile: speed / plain loading of the whole dump (target > 1)",
-            ratio(("mostly-other", "kgkit --keep profile"), ("mostly-other", "plain")),
+            "--scope profile: speed / plain loading of the whole dump (target > 1)",
+            ratio(("mostly-other", "kgkit --scope profile"), ("mostly-other", "plain")),
             1.0,
         ),
         (
-            "--keep profile: --jobs 2 speed / serial (issue 7 target >= 1.6)",
+            "--scope profile: --jobs 2 speed / serial (issue 7 target >= 1.6)",
             ratio(
-                ("mostly-other", "kgkit --keep profile --jobs 2"),
-                ("mostly-other", "kgkit --keep profile"),
+                ("mostly-other", "kgkit --scope profile --jobs 2"),
+                ("mostly-other", "kgkit --scope profile"),
             ),
             1.6,
         ),

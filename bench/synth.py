@@ -7,7 +7,7 @@ What a dump holds, per entity ``http://synthetic.kgkit.invalid/e/N``:
 
 - ``rdf:type`` one of 20 classes ``.../class/CK`` (1 statement);
 - ``skos:prefLabel`` in ``en`` (95 % of entities), ``de`` (70 %), ``fr`` (60 %), and an
-  "other language" label in ``es`` or ``it`` (20 %), so ``--languages`` has work to do;
+  "other language" label in ``es`` or ``it`` (20 %), so ``--literal-languages`` has work to do;
 - ``skos:altLabel`` aliases: 0 to 2 in ``en``, sometimes one in ``de`` (about 1.0 on average);
   aliases are drawn from a small word pool, so some are shared by several entities;
 - ``skos:definition`` in ``en`` (50 %), some of them holding an escaped quote;
@@ -17,7 +17,7 @@ What a dump holds, per entity ``http://synthetic.kgkit.invalid/e/N``:
   roots; ``multi_parent`` of the entities get a second parent;
 - ``owl:sameAs`` to ``http://synthetic.kgkit.invalid/alt/N`` (5 %);
 - "other statements" with 50 predicates ``.../p/PK`` outside the default profile (numbers,
-  dates, plain strings, links to other entities), so that ``--keep profile`` drops them.
+  dates, plain strings, links to other entities), so that ``--scope profile`` drops them.
 
 How size scales: the profile statements above average about 6.0 per entity, and the other
 statements make up ``other_ratio`` of the whole dump, so the dump holds about

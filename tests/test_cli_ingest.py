@@ -60,9 +60,9 @@ def test_import_json_summary_is_the_last_line(kgkit):
         str(MESSY),
         "--on-error",
         "skip",
-        "--keep",
+        "--scope",
         "profile",
-        "--languages",
+        "--literal-languages",
         "en,de",
         "--json",
         "--graph",
@@ -213,7 +213,15 @@ def test_import_jobs_accepts_every_option_and_prints_the_same_summary(kgkit, mon
     from kgkit.ingest import lines
 
     monkeypatch.setattr(lines, "CHUNK_BYTES", 300)  # several chunks from the small dump
-    common = ["--on-error", "skip", "--keep", "profile", "--languages", "en,de", "--json"]
+    common = [
+        "--on-error",
+        "skip",
+        "--scope",
+        "profile",
+        "--literal-languages",
+        "en,de",
+        "--json",
+    ]
     common += ["--batch-size", "5", "--quiet", "--format", "nt"]
     out = {}
     for jobs in ("1", "2"):

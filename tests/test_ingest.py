@@ -115,7 +115,7 @@ def test_messy_dump_counts_reconcile_and_rejects_exactly_the_bad_lines(tmp_path,
 
 @pytest.mark.parametrize("batch", [2, 1000])
 def test_messy_dump_sliced_by_profile_and_languages(tmp_path, workspace, batch):
-    sl = make_slice(workspace, keep="profile", languages=["en", "de"])
+    sl = make_slice(workspace, scope="profile", literal_languages=["en", "de"])
     store = ox.Store()
     opts = ImportOptions(on_error="skip", rejects=tmp_path / "r.txt", slice=sl, batch_size=batch)
     s = import_into_store(store, [str(MESSY)], "messy", opts, workspace)
@@ -132,7 +132,7 @@ def test_messy_dump_strict_mode_stops_at_first_bad_line():
         import_into_store(store, [str(MESSY)], "messy", ImportOptions(batch_size=3))
     # the unterminated literal starts at column 73 (the opening quote), line 8
     assert str(info.value).startswith(f"{MESSY}:8:73: ")
-    assert "--on-error skip" in str(info.value)
+    assert "on_error='skip'" in str(info.value)
     assert len(store) == 0
 
 
@@ -393,16 +393,16 @@ def test_rejects_default_path_and_explicit_path(workspace, tmp_path):
     assert s.rejects == str(other) and set(_rejects(other)) == MESSY_BAD_LINES
 
 
-@pytest.mark.parametrize("keep", ["all", "profile"])
-def test_bounded_windows_after_errors_lose_nothing(tmp_path, workspace, monkeypatch, keep):
+@pytest.mark.parametrize("scope", ["all", "profile"])
+def test_bounded_windows_after_errors_lose_nothing(tmp_path, workspace, monkeypatch, scope):
     # after a bad line the rest of a batch is parsed in windows; make them tiny
     from kgkit.ingest import lines
 
     monkeypatch.setattr(lines, "_AFTER_ERROR_WINDOW", 2)
-    sl = make_slice(workspace, keep=keep)
+    sl = make_slice(workspace, scope=scope)
     opts = ImportOptions(on_error="skip", rejects=tmp_path / "r.txt", slice=sl)
     s = import_into_store(ox.Store(), [str(MESSY)], "messy", opts, workspace)
-    expected = MESSY_ALL if keep == "all" else {**MESSY_ALL, "loaded": 10, "filtered": 2}
+    expected = MESSY_ALL if scope == "all" else {**MESSY_ALL, "loaded": 10, "filtered": 2}
     assert _counts(s) == expected
     assert set(_rejects(tmp_path / "r.txt")) == MESSY_BAD_LINES
 
@@ -411,7 +411,7 @@ def test_several_inputs_make_several_graphs_and_refuse_one_rejects_file(workspac
     a, b = tmp_path / "alpha.nt", tmp_path / "beta.nt.gz"
     a.write_text(CLEAN, encoding="utf-8")
     b.write_bytes(gzip.compress(CLEAN.encode()))
-    with pytest.raises(KgkitError, match="--rejects names one file"):
+    with pytest.raises(KgkitError, match="rejects=PATH names one file"):
         import_files(
             workspace, [str(a), str(b)], ImportOptions(on_error="skip", rejects=tmp_path / "r")
         )

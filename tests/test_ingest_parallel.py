@@ -39,18 +39,20 @@ def _run(path, fmt, opts_kw, ws, tmp_path, tag):
     return _counts(s), _graph(store, s.content), rejects.read_text(encoding="utf-8")
 
 
-@pytest.mark.parametrize("keep", ["all", "profile"])
+@pytest.mark.parametrize("scope", ["all", "profile"])
 @pytest.mark.parametrize("fmt", ["nt", "nq"])
-def test_parallel_equals_serial_on_the_messy_dump(tmp_path, workspace, monkeypatch, keep, fmt):
+def test_parallel_equals_serial_on_the_messy_dump(tmp_path, workspace, monkeypatch, scope, fmt):
     # chunks of ~300 bytes: the 2.3 kB dump is cut into several chunks, across blank nodes
     monkeypatch.setattr(lines, "CHUNK_BYTES", 300)
-    sl = make_slice(workspace, keep=keep, languages=["en", "de"] if keep == "profile" else None)
+    sl = make_slice(
+        workspace, scope=scope, literal_languages=["en", "de"] if scope == "profile" else None
+    )
     serial = _run(MESSY, fmt, {"slice": sl, "batch_size": 4}, workspace, tmp_path, "s")
     parallel = _run(MESSY, fmt, {"slice": sl, "batch_size": 4, "jobs": 2}, workspace, tmp_path, "p")
     assert serial == parallel
     expected = (
         {"read": 19, "loaded": 12, "duplicates": 2, "filtered": 0, "rejected": 5}
-        if keep == "all"
+        if scope == "all"
         else {"read": 19, "loaded": 8, "duplicates": 2, "filtered": 4, "rejected": 5}
     )
     assert parallel[0] == expected
@@ -61,7 +63,7 @@ def test_parallel_strict_mode_reports_the_first_bad_line(workspace, monkeypatch)
     from kgkit.errors import ParseError
 
     store = ox.Store()
-    sl = make_slice(workspace, keep="profile")
+    sl = make_slice(workspace, scope="profile")
     with pytest.raises(ParseError) as info:
         import_into_store(store, [str(MESSY)], "g", ImportOptions(slice=sl, jobs=2), workspace)
     assert str(info.value).startswith(f"{MESSY}:8:73: ")
@@ -96,7 +98,7 @@ def test_parallel_records_and_compressed_input(tmp_path, workspace, monkeypatch)
         )
     src = tmp_path / "r.jsonl.gz"
     src.write_bytes(gzip.compress(("\n".join(recs) + "\n").encode()))
-    sl = make_slice(ws, keep="profile", languages=["en"])
+    sl = make_slice(ws, scope="profile", literal_languages=["en"])
     serial = _run(src, "records", {"slice": sl}, ws, tmp_path, "s")
     parallel = _run(src, "records", {"slice": sl, "jobs": 2}, ws, tmp_path, "p")
     assert serial == parallel

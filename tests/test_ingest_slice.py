@@ -22,7 +22,7 @@ E = "http://example.org/e/"
 
 
 def test_slice_keeps_what_an_import_with_the_same_options_loads(tmp_path, workspace):
-    sl = make_slice(workspace, keep="profile", languages=["en", "de"])
+    sl = make_slice(workspace, scope="profile", literal_languages=["en", "de"])
     out = tmp_path / "out.nt"
     s = slice_dump(workspace, [str(MESSY)], out, sl, on_error="skip")
     # hand counts (tests/data/ingest-messy/README.md): 8 kept + 2 duplicates written
@@ -41,7 +41,7 @@ def test_slice_keeps_what_an_import_with_the_same_options_loads(tmp_path, worksp
 def test_slice_strict_mode_fails_and_writes_nothing(tmp_path, workspace):
     out = tmp_path / "out.nt"
     with pytest.raises(ParseError) as info:
-        slice_dump(workspace, [str(MESSY)], out, make_slice(workspace, keep="profile"))
+        slice_dump(workspace, [str(MESSY)], out, make_slice(workspace, scope="profile"))
     assert str(info.value).startswith(f"{MESSY}:8:73: ")
     assert not out.exists()
     assert [p.name for p in tmp_path.iterdir()] == ["ws"]  # no temporary file left
@@ -70,7 +70,7 @@ def test_slice_roots_keeps_the_closure(tmp_path, workspace, monkeypatch, jobs):
     src = tmp_path / "h.nt.bz2"
     src.write_bytes(bz2.compress(HIERARCHY.encode()))
     out = tmp_path / "out.nt.gz"
-    sl = make_slice(workspace, keep="profile")
+    sl = make_slice(workspace, scope="profile")
     s = slice_dump(workspace, [str(src)], out, sl, roots=[f"{E}a"], jobs=jobs)
     assert s.entities == 4  # a, b, c, d: d reaches a through c
     got = gzip.decompress(out.read_bytes()).decode("utf-8")
@@ -88,7 +88,7 @@ def test_slice_roots_keeps_the_closure(tmp_path, workspace, monkeypatch, jobs):
 
 def test_slice_output_is_the_same_for_any_number_of_workers(tmp_path, workspace, monkeypatch):
     monkeypatch.setattr(lines, "CHUNK_BYTES", 300)
-    sl = make_slice(workspace, keep="profile", languages=["en"])
+    sl = make_slice(workspace, scope="profile", literal_languages=["en"])
     one, two = tmp_path / "1.nt", tmp_path / "2.nt"
     s1 = slice_dump(workspace, [str(MESSY)], one, sl, on_error="skip", jobs=1)
     s2 = slice_dump(workspace, [str(MESSY)], two, sl, on_error="skip", jobs=2)
@@ -107,7 +107,7 @@ def test_cli_slice_json(kgkit, tmp_path):
         str(MESSY),
         "-o",
         str(out),
-        "--languages",
+        "--literal-languages",
         "en,de",
         "--on-error",
         "skip",
@@ -126,7 +126,7 @@ def test_cli_slice_json(kgkit, tmp_path):
 
 
 def test_slice_output_keeps_input_order_whatever_the_chunks(tmp_path, workspace, monkeypatch):
-    sl = make_slice(workspace, keep="all")
+    sl = make_slice(workspace, scope="all")
     outs = []
     for size in (120, 1 << 20):
         monkeypatch.setattr(lines, "CHUNK_BYTES", size)

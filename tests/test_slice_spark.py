@@ -66,7 +66,7 @@ def _both(workspace, tmp_path, src, **kw):
 def test_spark_gives_the_local_output_on_the_messy_dump(spark, workspace, tmp_path):
     src = tmp_path / "messy.nt.gz"
     src.write_bytes(gzip.compress(MESSY.read_bytes()))
-    sl = make_slice(workspace, keep="profile", languages=["en", "de"])
+    sl = make_slice(workspace, scope="profile", literal_languages=["en", "de"])
     local, remote = _both(workspace, tmp_path, src, slice=sl, on_error="skip")
     assert local == remote
     assert local[1]["rejected"] == 5 and local[1]["written"] == 10
@@ -77,7 +77,7 @@ def test_spark_gives_the_local_output_with_roots(spark, workspace, tmp_path):
 
     src = tmp_path / "h.nt.bz2"
     src.write_bytes(bz2.compress(HIERARCHY.encode()))
-    sl = make_slice(workspace, keep="profile")
+    sl = make_slice(workspace, scope="profile")
     local, remote = _both(workspace, tmp_path, src, slice=sl, roots=[f"{E}a"])
     assert local == remote
     assert local[1]["entities"] == 4 and local[1]["written"] == 6
@@ -88,7 +88,7 @@ def test_spark_refuses_what_hadoop_would_misread(spark, workspace, tmp_path):
 
     src = tmp_path / "x.dat"
     src.write_bytes(gzip.compress(MESSY.read_bytes()))
-    sl = make_slice(workspace, keep="profile")
+    sl = make_slice(workspace, scope="profile")
     with pytest.raises(KgkitError, match="gzip data under a name Spark reads as none"):
         slice_dump(workspace, [str(src)], tmp_path / "o.nt", sl, format="nt", engine="spark")
 

@@ -46,22 +46,28 @@ def _split(text: str | None) -> list[str] | None:
     return [x.strip() for x in (text or "").split(",") if x.strip()] or None
 
 
-def _slicing_options(keep_default: str):
-    """--keep, --predicates, --languages: what an import or a slice keeps."""
+def _slicing_options(scope_default: str):
+    """--scope, --predicates, --literal-languages: what an import or a slice keeps."""
 
     def decorate(f):
         f = click.option(
-            "--languages", help="Comma-separated languages to keep for tagged literals."
+            "--literal-languages",
+            metavar="LIST",
+            help="Comma-separated languages: language-tagged literals in others are left out "
+            "(untagged literals always kept).",
         )(f)
         f = click.option(
-            "--predicates", help="Comma-separated predicates (CURIEs or <IRIs>) to keep."
+            "--predicates",
+            metavar="LIST",
+            help="Comma-separated predicates (CURIEs or <IRIs>) to keep, added to --scope.",
         )(f)
         return click.option(
-            "--keep",
-            type=click.Choice(["all", "profile"]),
-            default=keep_default,
+            "--scope",
+            type=click.Choice(["profile", "all"]),
+            default=scope_default,
             show_default=True,
-            help="profile: keep only statements whose predicate is in the workspace profile.",
+            help="profile: only statements whose predicate is in the workspace profile; "
+            "all: every predicate.",
         )(f)
 
     return decorate
@@ -134,9 +140,9 @@ def import_command(
     fmt,
     on_error,
     rejects,
-    keep,
+    scope,
     predicates,
-    languages,
+    literal_languages,
     batch_size,
     base_iri,
     jobs,
@@ -149,7 +155,7 @@ def import_command(
     input (gzip, bzip2, xz, zstd) is recognised by its content. Use - for
     standard input (with --format). Each import replaces its graph atomically.
 
-    Example: kgkit import dump.nt.gz --keep profile --languages en,de --on-error skip
+    Example: kgkit import dump.nt.gz --scope profile --literal-languages en,de --on-error skip
     """
     ws = get_workspace(ctx)
     opts = ImportOptions(
@@ -157,7 +163,12 @@ def import_command(
         format=fmt,
         on_error=on_error,
         rejects=rejects,
-        slice=make_slice(ws, keep=keep, predicates=_split(predicates), languages=_split(languages)),
+        slice=make_slice(
+            ws,
+            scope=scope,
+            predicates=_split(predicates),
+            literal_languages=_split(literal_languages),
+        ),
         batch_size=batch_size,
         base_iri=base_iri,
         jobs=jobs or os.cpu_count() or 1,
@@ -278,9 +289,9 @@ def slice_command(
     files,
     output,
     fmt,
-    keep,
+    scope,
     predicates,
-    languages,
+    literal_languages,
     roots,
     on_error,
     rejects,
@@ -293,17 +304,22 @@ def slice_command(
     """Cut a dump down to what a vocabulary needs, as N-Triples.
 
     For dumps too big to import whole.
-    Keeps the profile's predicates (or --predicates), the chosen --languages, and with
+    Keeps the profile's predicates (or --predicates), the chosen --literal-languages, and with
     --roots only the entities below those roots. Reads N-Triples, N-Quads or entity
     records, plain or compressed; the store is not touched. Import the result with
     kgkit import.
 
-    Example: kgkit slice dump.nt.gz -o topics.nt --languages en,de --roots tw:water-sports
+    Example: kgkit slice dump.nt.gz -o topics.nt --literal-languages en,de --roots tw:water-sports
     """
     from kgkit.ingest.slice_dump import slice_dump
 
     ws = get_workspace(ctx)
-    sl = make_slice(ws, keep=keep, predicates=_split(predicates), languages=_split(languages))
+    sl = make_slice(
+        ws,
+        scope=scope,
+        predicates=_split(predicates),
+        literal_languages=_split(literal_languages),
+    )
     root_iris = [ws.expand(r, where="--roots") for r in _split(roots) or []]
     bar = _Bar() if (is_terminal() and not quiet and not as_json) else None
     try:

@@ -81,7 +81,9 @@ def _import(ws, graph: str, files: list[Path], rejects: Path, sliced: bool):
         graph=graph,
         on_error="skip",
         rejects=rejects,
-        slice=make_slice(ws, keep="profile", languages=["en", "de"]) if sliced else make_slice(ws),
+        slice=make_slice(ws, scope="profile", literal_languages=["en", "de"])
+        if sliced
+        else make_slice(ws),
     )
     (summary,) = import_files(ws, [str(f) for f in files], opts)
     return summary

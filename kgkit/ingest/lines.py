@@ -45,7 +45,8 @@ __all__ = [
 
 #: size of the chunks handed to worker processes (cut at the last line end before it)
 CHUNK_BYTES = 1 << 20
-_AFTER_ERROR_WINDOW = 10_000  # lines parsed at a time after a bad line in a chunk
+_AFTER_ERROR_WINDOW = 10_000  # most lines parsed at a time after a bad line in a chunk
+_FIRST_WINDOW = 64  # lines parsed right after a bad line (doubling while they parse)
 #: deepest nesting of RDF 1.2 triple terms read; pyoxigraph 0.5 recurses per level and
 #: ended the whole process (stack overflow) at 20,000 levels, so deeper lines are refused
 MAX_TRIPLE_TERM_DEPTH = 64
@@ -354,11 +355,14 @@ def process_chunk(
             take(q)
         if bad is None:
             pos += len(seg)
+            window = min(window * 2, _AFTER_ERROR_WINDOW)
             continue
         idx, col, cause = bad
         res.rejects.append((first + pos + idx, col, cause, decode(seg[idx])))
         pos += idx + 1
-        window = _AFTER_ERROR_WINDOW
+        # small windows while lines keep failing (junk: each error re-reads only a few
+        # lines, not the rest of the chunk), growing again while they parse
+        window = min(_FIRST_WINDOW, _AFTER_ERROR_WINDOW)
     res.rejects.sort(key=lambda r: r[0])
     res.text = "".join(kept_text).encode("utf-8")
     res.kept = len(kept_text) + len(blank)

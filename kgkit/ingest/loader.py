@@ -24,6 +24,7 @@ How an import runs:
 from __future__ import annotations
 
 import contextlib
+import io
 import json
 import os
 import re
@@ -38,7 +39,14 @@ from pathlib import Path
 import pyoxigraph as ox
 
 import kgkit
-from kgkit.errors import KgkitError, ParseError, StoreError, one_line
+from kgkit.errors import (
+    ArgumentError,
+    InputError,
+    ParseError,
+    StoreError,
+    WorkspaceError,
+    one_line,
+)
 from kgkit.ingest import lines as _lines
 from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
 from kgkit.ingest.lines import (
@@ -166,24 +174,31 @@ def graph_name_for(label: str) -> str:
 
 def make_slice(
     ws: Workspace,
-    keep: str = "all",
+    scope: str = "all",
     predicates: list[str] | None = None,
-    languages: list[str] | None = None,
+    literal_languages: list[str] | None = None,
 ) -> Slice:
-    """Build a :class:`Slice` from command-line style choices."""
-    if keep not in ("all", "profile"):
-        raise KgkitError(f"--keep takes 'all' or 'profile', not {keep!r}")
+    """Build a :class:`Slice` from command-line style choices.
+
+    ``scope`` is ``"all"`` (every predicate) or ``"profile"`` (the predicates of the
+    workspace profile); ``predicates`` adds to it; ``literal_languages`` keeps only
+    language-tagged literals in those languages (untagged ones always pass).
+    """
+    if scope not in ("all", "profile"):
+        raise ArgumentError("scope", f"takes 'all' or 'profile', not {one_line(repr(scope))}")
     kept: set[str] | None = None
-    if keep == "profile":
+    if scope == "profile":
         kept = set(ws.profile.all_predicates())
     if predicates:
-        kept = (kept or set()) | {ws.expand(p, where="--predicates") for p in predicates}
+        kept = (kept or set()) | {ws.expand(p, where="predicates") for p in predicates}
     langs = None
-    if languages:
-        langs = tuple(x.strip().lower() for x in languages if x.strip())
+    if literal_languages:
+        langs = tuple(x.strip().lower() for x in literal_languages if x.strip())
         for tag in langs:
             if not re.fullmatch(r"\*|[a-z]{1,8}(-[a-z0-9]{1,8})*", tag):
-                raise KgkitError(f"--languages: {tag!r} is not a language tag")
+                raise ArgumentError(
+                    "literal_languages", f"{one_line(repr(tag))} is not a language tag"
+                )
     return Slice(frozenset(kept) if kept is not None else None, langs)
 
 
@@ -205,7 +220,7 @@ class _Rejects:
             self.path.parent.mkdir(parents=True, exist_ok=True)
             fd, self._tmp = tempfile.mkstemp(prefix=".rejects-", dir=self.path.parent)
         except OSError as exc:
-            raise KgkitError(
+            raise InputError(
                 f"rejects file {one_line(str(self.path))}: cannot write it "
                 f"({exc.strerror or exc.__class__.__name__})"
             ) from None
@@ -255,8 +270,8 @@ class _Run:
     # -- errors ---------------------------------------------------------
     def bad(self, label: str, line: int | None, column: int | None, cause: str, text: str):
         if self.opts.on_error != "skip":
-            hint = "; run with --on-error skip to set bad statements aside"
-            raise ParseError(label, line, column, cause + hint)
+            hint = "; run with on_error='skip' to set bad statements aside"
+            raise ParseError(label, line, column, cause + hint, params=("on_error",))
         self.rejected += 1
         self.read += 1
         self.rejects.add(label, line, column, cause, text)
@@ -398,6 +413,48 @@ class _Pending:
             self._thread = None
 
 
+class _NestingGuard(io.RawIOBase):
+    """A Turtle stream, refused once ``<<`` opens more than MAX_TRIPLE_TERM_DEPTH levels.
+
+    pyoxigraph's parser recurses per level of triple terms and ends the process when
+    its stack runs out, so the depth is counted before it sees the bytes. Text inside
+    string literals is counted too: only a literal quoting dozens of ``<<`` is refused
+    wrongly.
+    """
+
+    _TOKENS = re.compile(rb"<<|>>")
+
+    def __init__(self, stream, label: str):
+        self._stream, self._label = stream, label
+        self._depth = 0
+        self._line = 1
+        self._carry = b""
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buffer) -> int:
+        data = self._stream.read(len(buffer))
+        if not data:
+            return 0
+        text = self._carry + data  # a token cut by the block boundary is seen whole
+        last = 0
+        if b"<<" in text or b">>" in text:
+            for m in self._TOKENS.finditer(text):
+                last = m.end()
+                self._depth = self._depth + 1 if m.group() == b"<<" else max(self._depth - 1, 0)
+                if self._depth > _lines.MAX_TRIPLE_TERM_DEPTH:
+                    line = self._line + text.count(b"\n", 0, m.start())
+                    cause = f"triple terms nested more than {_lines.MAX_TRIPLE_TERM_DEPTH} deep"
+                    raise ParseError(self._label, line, None, cause)
+        # keep the last byte for the next block unless it closed a token counted here
+        self._carry = b"" if last == len(text) else text[-1:]
+        self._line += text.count(b"\n", 0, len(text) - len(self._carry))
+        n = len(data)
+        buffer[:n] = data
+        return n
+
+
 def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
     """Turtle and JSON-LD: not line-based, parsed as a stream."""
     # Always parsed here rather than handed to Store.bulk_load: bulk_load puts JSON-LD
@@ -406,7 +463,10 @@ def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
     # as for N-Quads.
     fmt = RDF_FORMATS[fmt_name]
     base = run.opts.base_iri
-    parser = ox.parse(input=source.stream, format=fmt, base_iri=base)
+    stream = source.stream
+    if fmt_name == "ttl":
+        stream = io.BufferedReader(_NestingGuard(stream, source.label), 1 << 20)
+    parser = ox.parse(input=stream, format=fmt, base_iri=base)
     batch: list[ox.Quad] = []
     errors: list[tuple[int | None, int | None, str]] = []
     last = None
@@ -478,7 +538,7 @@ def _load_source(
         tick()
         return
     if fmt_name == "records" and ws is None:
-        raise KgkitError("entity records need a workspace profile to map their fields")
+        raise WorkspaceError("entity records need a workspace profile to map their fields")
     opts = run.opts
     spec = ChunkSpec(fmt_name, opts.slice, ws if fmt_name == "records" else None)
     # A plain N-Triples import is bound by the store's own loader: workers would only
@@ -530,14 +590,16 @@ def _stage(
     On failure the partial content graph is discarded (:func:`_discard`).
     """
     if not is_valid_graph_name(graph):
-        raise KgkitError(f"{graph!r} is not a valid graph name (letters, digits, '.', '_' and '-')")
+        raise ArgumentError(
+            "graph", f"{graph!r} is not a valid graph name (letters, digits, '.', '_' and '-')"
+        )
     if opts.on_error not in ("stop", "skip"):
-        raise KgkitError(f"--on-error takes 'stop' or 'skip', not {opts.on_error!r}")
+        raise ArgumentError("on_error", f"takes 'stop' or 'skip', not {opts.on_error!r}")
     if opts.batch_size < 1:
-        raise KgkitError("--batch-size must be at least 1")
+        raise ArgumentError("batch_size", "must be at least 1")
     formats = [detect_format(x, opts.format) for x in inputs]
     if inputs.count("-") > 1:
-        raise KgkitError("-: standard input can be read only once")
+        raise InputError("-: standard input can be read only once")
     if opts.rejects is not None and opts.on_error == "skip":
         check_target(
             Path(opts.rejects),
@@ -561,7 +623,7 @@ def _stage(
                 # the graph is switched
                 sha = source.finish()
             except OSError as exc:
-                raise KgkitError(
+                raise InputError(
                     f"{source.label}: cannot read ({exc.strerror or exc.__class__.__name__})"
                 ) from None
             finally:
@@ -605,7 +667,9 @@ def _stage(
             "format": opts.format,
             "on_error": opts.on_error,
             "predicates": sorted(opts.slice.predicates) if opts.slice.predicates else None,
-            "languages": list(opts.slice.languages) if opts.slice.languages else None,
+            "literal_languages": (
+                list(opts.slice.literal_languages) if opts.slice.literal_languages else None
+            ),
             "base_iri": opts.base_iri,
         },
         sort_keys=True,
@@ -690,7 +754,7 @@ def import_files(
     one transaction at the end, or none is.
     """
     if not inputs:
-        raise KgkitError("nothing to import: give one or more files, or - for standard input")
+        raise InputError("nothing to import: give one or more files, or - for standard input")
     groups: list[tuple[str, list[str]]]
     if opts.graph:
         groups = [(opts.graph, list(inputs))]
@@ -698,16 +762,18 @@ def import_files(
         names = [graph_name_for(x) for x in inputs]
         dupes = {n for n in names if names.count(n) > 1}
         if dupes:
-            raise KgkitError(
+            raise InputError(
                 f"two inputs would both import into graph {sorted(dupes)[0]!r}; "
-                "give --graph to import them together"
+                "give graph=NAME to import them together",
+                params=("graph",),
             )
         groups = [(n, [x]) for n, x in zip(names, inputs, strict=True)]
         if len(groups) > 1 and opts.rejects is not None:
-            raise KgkitError(
-                "--rejects names one file but these inputs make several imports; "
-                "give --graph to import them together, or leave out --rejects "
-                "(each graph then gets .kgkit/rejects/GRAPH.rejects.txt)"
+            raise InputError(
+                "rejects=PATH names one file but these inputs make several imports; "
+                "give graph=NAME to import them together, or leave out rejects=PATH "
+                "(each graph then gets .kgkit/rejects/GRAPH.rejects.txt)",
+                params=("rejects", "graph"),
             )
     for label in inputs:
         detect_format(label, opts.format)

@@ -28,7 +28,7 @@ import json
 
 import pyoxigraph as ox
 
-from kgkit.errors import KgkitError, WorkspaceError
+from kgkit.errors import RecordError, WorkspaceError
 from kgkit.workspace import Workspace
 
 __all__ = ["RECORD_FIELDS", "RecordError", "record_to_triples", "parse_record_line"]
@@ -45,14 +45,6 @@ RECORD_FIELDS = {
     "code": ("notation", "plain"),
 }
 _KNOWN = {"id", "facts", *RECORD_FIELDS}
-
-
-class RecordError(KgkitError):
-    """A record that cannot be mapped; ``column`` is 1-based when known."""
-
-    def __init__(self, cause: str, column: int | None = None):
-        super().__init__(cause)
-        self.cause, self.column = cause, column
 
 
 class _Terms:
@@ -95,7 +87,9 @@ def _texts(value: object, field: str):
             yield lang, t
 
 
-def _literal(text: str, lang: str, field: str) -> ox.Literal:
+def _literal(text: str, lang: object, field: str) -> ox.Literal:
+    if not isinstance(lang, str):
+        raise RecordError(f"field {field!r} must be a language tag (a string)")
     try:
         return ox.Literal(text, language=lang) if lang else ox.Literal(text)
     except ValueError:
@@ -173,8 +167,30 @@ def record_to_triples(record: object, terms: _Terms) -> list[ox.Triple]:
     return out
 
 
+def _lone_surrogate(record: object) -> str | None:
+    """The first text of ``record`` (keys included) holding a lone surrogate, escaped."""
+    todo = [record]
+    while todo:
+        value = todo.pop()
+        if isinstance(value, dict):
+            todo.extend(value)
+            todo.extend(value.values())
+        elif isinstance(value, list):
+            todo.extend(value)
+        elif isinstance(value, str):
+            try:
+                value.encode("utf-8")
+            except UnicodeEncodeError as exc:
+                return f"\\u{ord(value[exc.start]):04x}"
+    return None
+
+
 def parse_record_line(line: bytes, terms: _Terms) -> list[ox.Triple]:
-    """Decode one line of entity-record JSON Lines into triples."""
+    """Decode one line of entity-record JSON Lines into triples.
+
+    Any problem of the line raises :class:`RecordError` with its cause, so that the
+    import can set the record aside whatever went wrong with it.
+    """
     try:
         # without its line ending, so that an error at the end has this line's column
         record = json.loads(line.rstrip(b"\r\n"))
@@ -182,4 +198,18 @@ def parse_record_line(line: bytes, terms: _Terms) -> list[ox.Triple]:
         raise RecordError(f"malformed JSON: {exc.msg}", exc.colno) from None
     except UnicodeDecodeError:
         raise RecordError("not UTF-8 text") from None
-    return record_to_triples(record, terms)
+    except RecursionError:
+        raise RecordError("malformed record: nested too deeply") from None
+    except ValueError as exc:  # an integer of over 4,300 digits, for one
+        cause = "a number of over 4,300 digits" if "digits" in str(exc) else str(exc)
+        raise RecordError(f"malformed JSON: {cause}") from None
+    # a JSON escape such as \ud800 decodes to half a character, which no RDF term holds
+    if (b"\\ud" in line or b"\\uD" in line) and (bad := _lone_surrogate(record)):
+        raise RecordError(f"text holds a lone surrogate ({bad}), which is not a character")
+    try:
+        return record_to_triples(record, terms)
+    except RecordError:
+        raise
+    except (ValueError, TypeError, RecursionError) as exc:
+        # a value no check above foresaw: the record is set aside, not the import
+        raise RecordError(f"cannot be mapped ({exc.__class__.__name__}: {exc})") from None

@@ -33,20 +33,20 @@ class Slice:
     """What an import keeps. ``None`` means no restriction on that axis."""
 
     predicates: frozenset[str] | None = None
-    languages: tuple[str, ...] | None = None
+    literal_languages: tuple[str, ...] | None = None
     #: only statements about these subjects (IRIs); used by ``kgkit slice --roots``
     subjects: frozenset[str] | None = None
 
     @property
     def is_everything(self) -> bool:
-        return self.predicates is None and self.languages is None and self.subjects is None
+        return self.predicates is None and self.literal_languages is None and self.subjects is None
 
     def keeps(self, quad: ox.Quad | ox.Triple) -> bool:
         if self.predicates is not None and quad.predicate.value not in self.predicates:
             return False
         if self.subjects is not None and quad.subject.value not in self.subjects:
             return False
-        if self.languages is not None:
+        if self.literal_languages is not None:
             obj = quad.object
             if isinstance(obj, ox.Literal):
                 lang = obj.language
@@ -59,15 +59,15 @@ class Slice:
         cache = self.__dict__.setdefault("_tags", {})
         kept = cache.get(tag)
         if kept is None:
-            kept = cache[tag] = language_matches(tag, self.languages)
+            kept = cache[tag] = language_matches(tag, self.literal_languages)
         return kept
 
     def describe(self) -> str:
         parts = []
         if self.predicates is not None:
             parts.append(f"{len(self.predicates)} predicates")
-        if self.languages is not None:
-            parts.append("languages " + ",".join(self.languages))
+        if self.literal_languages is not None:
+            parts.append("literal languages " + ",".join(self.literal_languages))
         if self.subjects is not None:
             parts.append(f"{len(self.subjects)} subjects")
         return "; ".join(parts) or "everything"
