@@ -449,3 +449,45 @@ def test_unwritable_rejects_target_is_checked_before_reading(workspace, tmp_path
         import_files(
             workspace, [str(dump)], ImportOptions(on_error="skip", rejects=dump / "bad.txt")
         )
+
+
+@pytest.mark.parametrize(
+    "which, target, message",
+    [
+        ("output", "input", "output .*: is one of the inputs"),
+        ("output", "workspace-file", "output .*: is the workspace file"),
+        ("output", "folder", "output .*: is a folder"),
+        ("rejects", "input", "rejects file .*: is one of the inputs"),
+        ("rejects", "workspace-file", "rejects file .*: is the workspace file"),
+    ],
+)
+def test_slice_never_writes_over_an_input_or_the_workspace(
+    workspace, tmp_path, which, target, message
+):
+    from kgkit.ingest import make_slice
+    from kgkit.ingest.slice_dump import slice_dump
+
+    dump = tmp_path / "d.nt"
+    dump.write_bytes(NT + b"<bad> .\n")
+    paths = {"input": dump, "workspace-file": workspace.root / "kgkit.yaml", "folder": tmp_path}
+    before = {p: p.read_bytes() for p in (dump, workspace.root / "kgkit.yaml")}
+    output = paths[target] if which == "output" else tmp_path / "out.nt"
+    rejects = paths[target] if which == "rejects" else None
+    with pytest.raises(KgkitError, match=message):
+        slice_dump(
+            workspace, [str(dump)], output, make_slice(workspace), on_error="skip", rejects=rejects
+        )
+    assert {p: p.read_bytes() for p in before} == before
+
+
+def test_slice_output_replaced_keeps_its_mode(workspace, tmp_path):
+    from kgkit.ingest import make_slice
+    from kgkit.ingest.slice_dump import slice_dump
+
+    dump = tmp_path / "d.nt"
+    dump.write_bytes(NT)
+    out = tmp_path / "out.nt"
+    out.write_text("old\n")
+    out.chmod(0o604)
+    s = slice_dump(workspace, [str(dump)], out, make_slice(workspace))
+    assert s.written == 2000 and stat.S_IMODE(out.stat().st_mode) == 0o604

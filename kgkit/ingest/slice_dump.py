@@ -37,8 +37,9 @@ from kgkit.ingest.formats import LINE_BASED, detect_format
 from kgkit.ingest.lines import ChunkSpec, iter_byte_chunks, process_chunks
 from kgkit.ingest.loader import Progress, _Rejects
 from kgkit.ingest.slicing import Slice
-from kgkit.ingest.sources import open_source
-from kgkit.workspace import Workspace
+from kgkit.ingest.sources import check_input, open_source
+from kgkit.ingest.targets import check_target, replace_file
+from kgkit.workspace import CONFIG_NAME, Workspace
 
 __all__ = ["SliceSummary", "reachable_from", "slice_dump"]
 
@@ -89,7 +90,7 @@ class _LocalEngine:
 
     @contextlib.contextmanager
     def results(self, label: str, spec: ChunkSpec, progress=None, count=lambda: 0):
-        source = open_source(label)
+        source = open_source(label, lone_cr=spec.format in ("nt", "nq"))
         # chunks of whole lines, the same whatever the number of workers
         it = process_chunks(spec, iter_byte_chunks(source.stream, _lines.CHUNK_BYTES), self.jobs)
 
@@ -165,8 +166,7 @@ def slice_dump(
                 f"{label}: kgkit slice reads line-based formats (nt, nq, records), not {fmt}; "
                 "import it instead"
             )
-        if label != "-" and not Path(label).is_file():
-            raise InputError(f"{label}: no such file")
+        check_input(label)
     if roots and "-" in inputs:
         raise ArgumentError(
             "roots", "reads the input twice, so the input cannot come from standard input"
@@ -179,6 +179,13 @@ def slice_dump(
         raise ArgumentError("pieces", f"{output}: pieces are plain N-Triples; name a folder")
     if pieces and os.path.lexists(output):
         raise InputError(f"{output}: exists already; pieces go into a new folder")
+    # never over an input, the workspace file or the store; only a regular file replaced
+    protected = (inputs, ws.root / CONFIG_NAME, ws.store_path)
+    if not pieces:
+        check_target(Path(output), "output", *protected)
+    if on_error == "skip":
+        default = Path(output).with_name(Path(output).name + ".rejects.txt")
+        check_target(Path(rejects) if rejects else default, "rejects file", *protected)
     if engine == "spark":
         from kgkit.ingest.slice_spark import SparkEngine
 
@@ -276,7 +283,7 @@ def _slice(
         if out is not raw:
             out.close()
         raw.close()
-        os.replace(tmp, output)
+        replace_file(tmp, output)
     except BaseException:
         bad.abort()
         if out is not raw:
