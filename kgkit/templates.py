@@ -56,6 +56,7 @@ import pyoxigraph as ox
 
 from kgkit.errors import KgkitError, ParameterError, TemplateError, WorkspaceError
 from kgkit.inputs import check_text, file_error, parse_int, read_text_file
+from kgkit.languages import is_language_tag
 from kgkit.query import Backend, QueryResult, run_query, tokenize
 from kgkit.workspace import PROFILE_ROLES, Profile, Workspace
 
@@ -95,7 +96,6 @@ _WALK = re.compile(
     r"^\?(?P<src>[A-Za-z_]\w*)\s*->\s*\?(?P<dst>[A-Za-z_]\w*)\s+from\s+(?P<start>[A-Za-z_]\w*)"
     r"(?:\s+up\s+to\s+(?P<limit>[A-Za-z_]\w*))?\s*$"
 )
-_LANG = re.compile(r"^[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*$")
 
 
 @dataclass(frozen=True)
@@ -328,7 +328,7 @@ def parse_value(
             raw = ws.config.languages[0] if ws.config.languages else "en"
         if raw == UNTAGGED:
             return ox.Literal("")
-        if not _LANG.match(raw):
+        if not is_language_tag(raw):
             raise ParameterError(
                 f"{what}: {raw!r} is not a BCP 47 language tag such as en or de "
                 f"(or {UNTAGGED} for literals without one)"

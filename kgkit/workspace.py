@@ -21,6 +21,7 @@ from pathlib import Path
 
 from kgkit.errors import WorkspaceError, one_line
 from kgkit.inputs import read_yaml
+from kgkit.languages import is_language_tag
 
 __all__ = [
     "CONFIG_NAME",
@@ -61,7 +62,6 @@ PROFILE_ROLES = tuple(DEFAULT_PROFILE)
 CONFIG_KEYS = ("store", "prefixes", "profile", "languages", "endpoint", "graphs")
 GRAPH_KEYS = ("profile", "untagged_language")
 
-_LANG_TAG = r"[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*"
 _PREFIX_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_.-]*$|^$")
 _CURIE = re.compile(r"^([A-Za-z][A-Za-z0-9_.-]*)?:(\S*)$")
 # what an IRI never holds (RDF 1.1 N-Triples, IRIREF): controls, space, <>"{}|^`\
@@ -302,10 +302,7 @@ def _parse_config(data: object, path: Path) -> Config:
     languages = data.get("languages", ["en"])
     if isinstance(languages, str):
         languages = [x.strip() for x in languages.split(",")]
-    if not isinstance(languages, list) or not all(
-        isinstance(x, str) and re.fullmatch(r"[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*", x)
-        for x in languages
-    ):
+    if not isinstance(languages, list) or not all(is_language_tag(x) for x in languages):
         raise WorkspaceError(f"{path}: key 'languages' must be a list of BCP 47 language tags")
 
     endpoint = data.get("endpoint")
@@ -363,7 +360,7 @@ def _parse_graphs(raw: object, prefixes: dict[str, str], path: Path) -> dict[str
                 raise WorkspaceError(f"{where}.profile.{role}' must be a list of predicates")
             roles[role] = tuple(_expand(v, prefixes, f"{where}.profile.{role}'") for v in value)
         lang = settings.get("untagged_language")
-        if lang is not None and (not isinstance(lang, str) or not re.fullmatch(_LANG_TAG, lang)):
+        if lang is not None and (not is_language_tag(lang)):
             raise WorkspaceError(
                 f"{where}.untagged_language' must be a BCP 47 language tag such as en"
             )

@@ -16,16 +16,7 @@ import pyoxigraph as ox
 __all__ = ["Slice", "language_matches"]
 
 
-def language_matches(tag: str, ranges: tuple[str, ...]) -> bool:
-    """RFC 4647 section 3.3.1 basic filtering, case-insensitive.
-
-    >>> language_matches("en-GB", ("en",))
-    True
-    >>> language_matches("eng", ("en",))
-    False
-    """
-    tag = tag.lower()
-    return any(r == "*" or tag == r or tag.startswith(r + "-") for r in ranges)
+from kgkit.languages import language_matches  # noqa: E402 - re-exported, one home
 
 
 @dataclass(frozen=True)

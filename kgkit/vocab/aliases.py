@@ -13,6 +13,7 @@ import unicodedata
 from collections.abc import Iterable
 from dataclasses import dataclass
 
+from kgkit.languages import language_matches
 from kgkit.vocab.spec import AliasRules, LanguageRules
 
 __all__ = [
@@ -70,8 +71,9 @@ def is_numeric_only(text: str) -> bool:
 
 
 def lang_matches(tag: str, ranges: Iterable[str]) -> bool:
-    """RFC 4647 basic filtering: ``en`` matches ``en`` and ``en-GB``; ``""`` only untagged."""
-    return any(tag == r or (r and tag.startswith(r + "-")) for r in ranges)
+    """RFC 4647 basic filtering: ``en`` matches ``en`` and ``en-GB``; ``""`` only untagged
+    (:func:`kgkit.languages.language_matches`, the one home of this test)."""
+    return language_matches(tag, ranges)
 
 
 class _LanguageFilter:

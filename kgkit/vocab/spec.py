@@ -15,6 +15,7 @@ from pathlib import Path
 
 from kgkit.errors import KgkitError, SpecError, one_line
 from kgkit.inputs import load_yaml, read_yaml
+from kgkit.languages import is_language_tag
 from kgkit.workspace import Workspace
 
 __all__ = [
@@ -58,7 +59,6 @@ TOP_KEYS = (
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,127}$")
 #: Largest integer or number a rule takes (bounds prune and alias thresholds).
 MAX_RULE_INT = 10**12
-_LANG = re.compile(r"^[A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*$")
 
 
 @dataclass(frozen=True)
@@ -230,7 +230,7 @@ class _Checker:
     def langs(self, value, key: str) -> tuple[str, ...]:
         out = []
         for i, v in enumerate(self.strings(value, key)):
-            if v != "" and not _LANG.match(v):
+            if not is_language_tag(v, allow_empty=True):
                 raise self.fail(f"{key}[{i}]", f"{v!r} is not a BCP 47 language tag")
             out.append(v.lower())
         return tuple(out)
