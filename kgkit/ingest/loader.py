@@ -48,7 +48,7 @@ from kgkit.errors import (
     one_line,
 )
 from kgkit.ingest import lines as _lines
-from kgkit.ingest.formats import LINE_BASED, RDF_FORMATS, detect_format
+from kgkit.ingest.formats import FORMATS, LINE_BASED, RDF_FORMATS, detect_format
 from kgkit.ingest.lines import (
     ChunkResult,
     ChunkSpec,
@@ -60,7 +60,7 @@ from kgkit.ingest.lines import (
     process_chunks,
 )
 from kgkit.ingest.slicing import Slice
-from kgkit.ingest.sources import Source, check_input, open_source
+from kgkit.ingest.sources import COMPRESSION_SUFFIXES, Source, check_input, open_source
 from kgkit.ingest.targets import check_target, replace_file
 from kgkit.store import (
     AUTO_RECLAIM,
@@ -142,6 +142,12 @@ class Progress:
 ProgressCallback = Callable[[Progress], None]
 
 
+#: file extensions a graph name leaves out: those of the formats and of compression
+_KNOWN_SUFFIXES = frozenset(
+    [e for exts in FORMATS.values() for e in exts] + list(COMPRESSION_SUFFIXES)
+)
+
+
 def graph_name_for(label: str) -> str:
     """A graph name from a file name: ``dumps/sport-2026.nt.gz`` gives ``sport-2026``."""
     if label == "-":
@@ -149,22 +155,7 @@ def graph_name_for(label: str) -> str:
     name = Path(label).name
     for _ in range(3):
         stem, dot, ext = name.rpartition(".")
-        if dot and ext.lower() in {
-            "gz",
-            "bz2",
-            "xz",
-            "zst",
-            "nt",
-            "nq",
-            "ttl",
-            "jsonld",
-            "json",
-            "jsonl",
-            "ndjson",
-            "ntriples",
-            "nquads",
-            "turtle",
-        }:
+        if dot and f".{ext.lower()}" in _KNOWN_SUFFIXES:
             name = stem
     name = re.sub(r"[^A-Za-z0-9._-]+", "-", name).strip("-.") or "graph"
     if not name[0].isalnum():
