@@ -39,6 +39,7 @@ from kgkit.ingest.loader import Progress, _Rejects
 from kgkit.ingest.slicing import Slice
 from kgkit.ingest.sources import check_input, open_source
 from kgkit.ingest.targets import check_target, replace_file
+from kgkit.reachability import reachable
 from kgkit.workspace import CONFIG_NAME, Workspace
 
 __all__ = ["SliceSummary", "reachable_from", "slice_dump"]
@@ -72,14 +73,7 @@ def reachable_from(roots: set[str], edges: dict[str, set[str]]) -> set[str]:
     >>> sorted(reachable_from({"a"}, {"a": {"b"}, "b": {"c"}, "x": {"y"}}))
     ['a', 'b', 'c']
     """
-    seen = set(roots)
-    todo = list(roots)
-    while todo:
-        for child in edges.get(todo.pop(), ()):
-            if child not in seen:
-                seen.add(child)
-                todo.append(child)
-    return seen
+    return reachable(edges, roots)
 
 
 class _LocalEngine:

@@ -23,6 +23,8 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
+from kgkit.reachability import reachable
+
 __all__ = [
     "Hierarchy",
     "break_cycles",
@@ -254,16 +256,8 @@ def count_descendants(parents: Mapping[str, list[str]]) -> dict[str, int]:
 
 
 def subtree(children: Mapping[str, Iterable[str]], roots: Iterable[str]) -> set[str]:
-    """``roots`` and every node below them."""
-    out = set()
-    stack = list(roots)
-    while stack:
-        n = stack.pop()
-        if n in out:
-            continue
-        out.add(n)
-        stack.extend(children.get(n, ()))
-    return out
+    """``roots`` and every node below them (:func:`kgkit.reachability.reachable`)."""
+    return reachable(children, roots)
 
 
 def repair_hierarchy(graph_parents: Mapping[str, Iterable[str]], kept: Iterable[str]) -> Hierarchy:
