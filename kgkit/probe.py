@@ -33,7 +33,8 @@ from pathlib import Path
 import ahocorasick_rs
 import yaml
 
-from kgkit.errors import ArgumentError, KgkitError, ProbeError
+from kgkit.errors import ArgumentError, ProbeError
+from kgkit.files import write_text_atomic
 from kgkit.inputs import file_error, read_text_file
 from kgkit.vocab.folder import BuildFileError, read_lexicon, read_topics
 from kgkit.vocab.model import LexiconRow, TopicRecord
@@ -415,12 +416,5 @@ def write_curation_edits(edits: list[dict], path: Path | str) -> Path:
     text = "# Curation edits written by `kgkit probe --corpus`; merge them into\n"
     text += "# vocab/<name>.curation.yaml (or use this file as the curation file).\n"
     text += yaml.safe_dump({"edits": edits}, allow_unicode=True, sort_keys=False, width=100)
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    try:
-        load_curation(tmp)
-    except KgkitError:
-        tmp.unlink()
-        raise
-    tmp.replace(path)
+    write_text_atomic(path, text, "curation file", check=load_curation)
     return path

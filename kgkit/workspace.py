@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from kgkit.errors import WorkspaceError, one_line
+from kgkit.files import write_text_atomic
 from kgkit.inputs import read_yaml
 from kgkit.languages import is_language_tag
 
@@ -415,9 +416,7 @@ def init_workspace(root: Path | str, languages: tuple[str, ...] = ("en",)) -> Wo
     )
     (root / "queries").mkdir(exist_ok=True)
     (root / "vocab").mkdir(exist_ok=True)
-    tmp = path.with_suffix(".yaml.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    write_text_atomic(path, text, "workspace file")
     ws = load_workspace(root)
     create_store(ws.store_path)
     return ws

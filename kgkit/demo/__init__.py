@@ -28,6 +28,7 @@ from pathlib import Path
 from kgkit.demo.generate import REFRESH, write_corpus, write_dumps
 from kgkit.entities import find_entities, format_matches
 from kgkit.errors import DemoError
+from kgkit.files import write_text_atomic
 from kgkit.ingest import ImportOptions, import_files, make_slice
 from kgkit.probe import curation_edits_for, load_lexicon, probe_corpus
 from kgkit.query import connect, run_query
@@ -64,9 +65,7 @@ def _add_prefix(root: Path) -> None:
     path = root / CONFIG_NAME
     text = path.read_text(encoding="utf-8")
     text = text.replace("\nprefixes:\n", "\nprefixes:\n" + _PREFIX_LINE, 1)
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(path)
+    write_text_atomic(path, text)
 
 
 def _counts(s) -> str:

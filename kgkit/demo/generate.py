@@ -400,10 +400,9 @@ def _archive(rng: random.Random, towns: list[str], labels: dict[str, str]) -> li
 
 
 def _write(path: Path, lines: list[str]) -> Path:
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    tmp.replace(path)
-    return path
+    from kgkit.files import write_text_atomic
+
+    return write_text_atomic(path, "\n".join(lines) + "\n")
 
 
 def write_dumps(folder: Path, refreshed: bool = False) -> dict[str, Path]:

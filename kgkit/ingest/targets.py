@@ -15,6 +15,7 @@ from collections.abc import Iterable
 from pathlib import Path
 
 from kgkit.errors import InputError, one_line
+from kgkit.files import replace_file  # the one home of replacing a file
 
 __all__ = ["check_target", "replace_file"]
 
@@ -76,23 +77,3 @@ def check_target(
         raise InputError(f"{shown}: {one_line(str(folder))} is not a folder")
     if not os.access(folder, os.W_OK | os.X_OK):
         raise InputError(f"{shown}: cannot write in folder {one_line(str(folder))}")
-
-
-def _umask() -> int:
-    mask = os.umask(0o22)
-    os.umask(mask)
-    return mask
-
-
-def replace_file(tmp: str | os.PathLike, path: Path) -> None:
-    """Rename the finished file ``tmp`` to ``path``, keeping the mode of a file it replaces.
-
-    A new file gets the mode a plain ``open`` would give it (0666 less the umask), not
-    the 0600 of a temporary file.
-    """
-    try:
-        mode = stat.S_IMODE(os.stat(path).st_mode)
-    except FileNotFoundError:
-        mode = 0o666 & ~_umask()
-    os.chmod(tmp, mode)
-    os.replace(tmp, path)

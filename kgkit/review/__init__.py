@@ -29,6 +29,7 @@ from importlib import resources
 from pathlib import Path
 
 from kgkit.errors import ReviewError
+from kgkit.files import write_text_atomic
 from kgkit.inputs import read_json, shape_error
 from kgkit.vocab.folder import REPORT_SHAPE, read_topics
 from kgkit.vocab.model import TopicRecord
@@ -590,7 +591,4 @@ def write_page(target: Path | str, output: Path | str, lint: bool = True) -> Pat
     output = Path(output)
     page = render_page(load_review(target, lint=lint))
     output.parent.mkdir(parents=True, exist_ok=True)
-    tmp = output.with_name(f".{output.name}.tmp")
-    tmp.write_text(page, encoding="utf-8")
-    os.replace(tmp, output)
-    return output
+    return write_text_atomic(output, page, "review page")
