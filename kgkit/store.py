@@ -55,6 +55,7 @@ __all__ = [
     "reclaim",
     "reclaim_graph",
     "AUTO_RECLAIM",
+    "DISCARD_AT_ONCE",
     "ReclaimSummary",
     "is_bookkeeping_iri",
     "import_node_iri",
@@ -452,10 +453,14 @@ class ReclaimSummary:
 RECLAIM_CHUNK = 50_000
 
 
-#: Statements of unreferenced content that an import or a drop removes at once (a
-#: fraction of a second); larger leftovers wait for :func:`reclaim`, so that a refresh
-#: costs what a first import costs (bench/README.md).
-AUTO_RECLAIM = 10_000
+#: Statements of replaced or dropped content that an import or a drop removes at once
+#: (a few hundredths of a second); larger leftovers wait for :func:`reclaim`, so that a
+#: refresh costs what a first import costs (bench/README.md).
+AUTO_RECLAIM = 1_000
+#: Statements a failed import removes of what it wrote, so that the store is exactly as
+#: before (about a third of a second; the user is reading an error meanwhile). More, or
+#: any after Ctrl-C or SIGTERM, is left for :func:`reclaim`.
+DISCARD_AT_ONCE = 10_000
 
 
 def reclaim_graph(

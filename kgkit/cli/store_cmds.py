@@ -25,7 +25,7 @@ def drop_command(ctx, name, as_json):
     The provenance of all its imports goes too, in one transaction: queries and
     `kgkit graphs` stop seeing the graph together, and every other graph stays as
     it is. The statements it held are left for `kgkit reclaim`, which frees their
-    space (up to 10,000 go at once).
+    space (up to 1,000 go at once).
 
     Example: kgkit drop sport-2025
     """

@@ -64,6 +64,7 @@ from kgkit.ingest.sources import COMPRESSION_SUFFIXES, Source, check_input, open
 from kgkit.ingest.targets import check_target, replace_file
 from kgkit.store import (
     AUTO_RECLAIM,
+    DISCARD_AT_ONCE,
     FileInfo,
     ImportRecord,
     content_graph_iri,
@@ -689,7 +690,7 @@ def _discard(store: ox.Store, content: str, exc: BaseException) -> None:
     if isinstance(exc, KeyboardInterrupt | SystemExit):
         return
     with contextlib.suppress(OSError):
-        reclaim_graph(store, content, at_most=AUTO_RECLAIM)
+        reclaim_graph(store, content, at_most=DISCARD_AT_ONCE)
 
 
 def _switch(store: ox.Store, staged: list[_Staged]) -> None:
