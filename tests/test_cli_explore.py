@@ -6,7 +6,7 @@ import json
 
 import pytest
 from click.testing import CliRunner
-from test_query_support import T, make_explore_workspace
+from explore_support import T, make_explore_workspace
 
 from kgkit.cli import cli
 

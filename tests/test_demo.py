@@ -145,7 +145,9 @@ def test_demo_command_refuses_an_existing_workspace(runner, demo_workspace):
 
 def test_corpus_mentions_the_cooperative_everywhere(tmp_path):
     # the cooperative's own name is in every article: the probe must flag it
-    for path in write_corpus(tmp_path):
+    paths = list(write_corpus(tmp_path))
+    assert len(paths) == 36  # the demo's 36 articles
+    for path in paths:
         assert "Tidewell" in path.read_text(encoding="utf-8")
 
 

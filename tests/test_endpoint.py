@@ -11,7 +11,7 @@ import threading
 
 import pytest
 from conftest import endpoint_workspace, served_store
-from test_query_support import make_explore_workspace
+from explore_support import make_explore_workspace
 
 from kgkit.entities import find_entities, show_entity, tree_of
 from kgkit.errors import KgkitError, QueryError

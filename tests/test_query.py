@@ -10,7 +10,7 @@ import threading
 
 import pyoxigraph as ox
 import pytest
-from test_query_support import T, make_explore_workspace
+from explore_support import T, make_explore_workspace
 
 from kgkit.errors import KgkitError, QueryError
 from kgkit.query import (

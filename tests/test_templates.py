@@ -6,7 +6,7 @@ import re
 
 import pyoxigraph as ox
 import pytest
-from test_query_support import T, make_explore_workspace
+from explore_support import T, make_explore_workspace
 
 from kgkit.errors import ParameterError, TemplateError
 from kgkit.query import connect, run_query
