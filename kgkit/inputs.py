@@ -318,28 +318,7 @@ class YamlDocument:
 
 
 class _LimitedLoader(getattr(yaml, "CSafeLoader", yaml.SafeLoader)):  # type: ignore[misc]
-    """The safe loader with duplicate keys refused and numbers bounded."""
-
-    def construct_mapping(self, node, deep=False):
-        if isinstance(node, yaml.MappingNode):
-            seen: dict[object, int] = {}
-            for key_node, _ in node.value:
-                if not isinstance(key_node, yaml.ScalarNode) or key_node.tag.endswith(":merge"):
-                    continue
-                key = self.construct_object(key_node)
-                try:
-                    first = seen.get(key)
-                except TypeError:
-                    continue
-                if first is not None:
-                    raise yaml.constructor.ConstructorError(
-                        None,
-                        None,
-                        f"key {key!r} given twice (first on line {first})",
-                        key_node.start_mark,
-                    )
-                seen[key] = key_node.start_mark.line + 1
-        return super().construct_mapping(node, deep=deep)
+    """The safe loader's parser and scalar constructors, with numbers bounded."""
 
     def construct_yaml_int(self, node):
         digits = len(re.sub(r"[^0-9a-fA-F]", "", str(node.value)))
@@ -373,70 +352,153 @@ def _yaml_fail(source: str, line: int | None, cause: str, error: type[KgkitError
     return error(f"{where}: {cause}")
 
 
-def _check_events(loader, source: str, error, max_depth: int, max_nodes: int) -> None:
-    """Walk the parser's events once: nesting depth and expanded size within limits.
+_STR = "tag:yaml.org,2002:str"
+_MERGE = "tag:yaml.org,2002:merge"
+_DEFAULT_TAGS = (None, "!", "tag:yaml.org,2002:seq", "tag:yaml.org,2002:map")
+_NO_KEY = object()
 
-    Sizes are counted, never expanded, so an alias bomb is refused at once.
+
+def _resolve_plain(value: str) -> str:
+    """The implicit tag of a plain scalar (the safe resolver's rules, first char indexed)."""
+    table = _LimitedLoader.yaml_implicit_resolvers
+    for tag, regexp in table.get(value[0] if value else "", ()):
+        if regexp.match(value):
+            return tag
+    return _STR
+
+
+class _Frame:
+    """A mapping or list being built, with what the checks need."""
+
+    __slots__ = ("obj", "path", "anchor", "start", "size", "key", "key_line", "seen", "merges")
+
+    def __init__(self, obj, path: str, anchor: str | None, start: int):
+        self.obj, self.path, self.anchor, self.start, self.size = obj, path, anchor, start, 1
+        self.key, self.key_line, self.seen, self.merges = _NO_KEY, start, {}, []
+
+
+def _build(loader, fail, max_depth: int, max_nodes: int):
+    """The document's data and key lines from one pass over the parser's events.
+
+    Depth, expanded size (aliases counted, never expanded), duplicate keys and tags are
+    checked as the events come, so a bad file stops at its first fault.
     """
-    depth = 0
-    stack: list[list] = [[0, None]]  # [expanded nodes so far, anchor of the collection]
+    constructors = loader.yaml_constructors
+    anchors: dict[str, object] = {}
     sizes: dict[str, int] = {}
+    lines: dict[str, int] = {}
+    stack: list[_Frame] = []
+    root: list = []
     total = 0
+    documents = 0
+
+    def add(value, line: int, size: int) -> None:
+        if not stack:
+            root.append(value)
+            return
+        f = stack[-1]
+        f.size += size
+        obj = f.obj
+        if type(obj) is list:
+            lines[f"{f.path}[{len(obj)}]"] = line
+            obj.append(value)
+        elif f.key is _NO_KEY:
+            if isinstance(value, dict | list):
+                raise fail(line, "a mapping key must be a single value")
+            f.key, f.key_line = value, line
+            if value is not _MERGE_KEY:
+                lines.setdefault(f"{f.path}.{value}" if f.path else str(value), line)
+        else:
+            key = f.key
+            f.key = _NO_KEY
+            if key is _MERGE_KEY:
+                f.merges.append((value, f.key_line))
+                return
+            try:
+                first = f.seen.get(key)
+            except TypeError:
+                raise fail(f.key_line, "a mapping key must be a single value") from None
+            if first is not None:
+                raise fail(f.key_line, f"key {key!r} given twice (first on line {first})")
+            f.seen[key] = f.key_line
+            obj[key] = value
+
     while loader.check_event():
         ev = loader.get_event()
-        if isinstance(ev, yaml.ScalarEvent | yaml.AliasEvent):
-            n = 1 if isinstance(ev, yaml.ScalarEvent) else sizes.get(ev.anchor, 1)
-            if isinstance(ev, yaml.ScalarEvent) and ev.anchor:
-                sizes[ev.anchor] = 1
-            stack[-1][0] += n
-            total += n
-        elif isinstance(ev, yaml.SequenceStartEvent | yaml.MappingStartEvent):
-            depth += 1
-            if depth > max_depth:
-                raise _yaml_fail(
-                    source,
-                    ev.start_mark.line + 1,
-                    f"nested more than {max_depth} levels deep",
-                    error,
+        kind = type(ev)
+        if kind is yaml.ScalarEvent:
+            tag = ev.tag
+            if tag is None or tag == "!":
+                tag = _resolve_plain(ev.value) if ev.implicit[0] else _STR
+            if tag == _STR:
+                value = ev.value
+            elif tag == _MERGE and stack and type(stack[-1].obj) is dict:
+                value = _MERGE_KEY
+            else:
+                construct = constructors.get(tag)
+                if construct is None or tag == _MERGE:
+                    raise fail(ev.start_mark.line + 1, f"the tag {tag!r} is not supported")
+                value = construct(
+                    loader, yaml.ScalarNode(tag, ev.value, ev.start_mark, ev.end_mark, ev.style)
                 )
-            stack.append([1, ev.anchor])
+            if ev.anchor:
+                anchors[ev.anchor], sizes[ev.anchor] = value, 1
             total += 1
-        elif isinstance(ev, yaml.SequenceEndEvent | yaml.MappingEndEvent):
-            depth -= 1
-            n, anchor = stack.pop()
-            if anchor:
-                sizes[anchor] = n
-            stack[-1][0] += n
+            add(value, ev.start_mark.line + 1, 1)
+        elif kind is yaml.AliasEvent:
+            if ev.anchor not in anchors:
+                raise fail(ev.start_mark.line + 1, f"unknown alias {ev.anchor!r}")
+            n = sizes.get(ev.anchor, 1)
+            total += n
+            if total > max_nodes:
+                break
+            add(anchors[ev.anchor], ev.start_mark.line + 1, n)
+        elif kind is yaml.MappingStartEvent or kind is yaml.SequenceStartEvent:
+            line = ev.start_mark.line + 1
+            if len(stack) >= max_depth:
+                raise fail(line, f"nested more than {max_depth} levels deep")
+            if ev.tag not in _DEFAULT_TAGS:
+                raise fail(line, f"the tag {ev.tag!r} is not supported")
+            obj = {} if kind is yaml.MappingStartEvent else []
+            if ev.anchor:
+                anchors[ev.anchor] = obj
+            if stack:
+                parent = stack[-1]
+                if type(parent.obj) is list:
+                    path = f"{parent.path}[{len(parent.obj)}]"
+                elif parent.key is _NO_KEY:
+                    raise fail(line, "a mapping key must be a single value")
+                else:
+                    path = f"{parent.path}.{parent.key}" if parent.path else str(parent.key)
+            else:
+                path = ""
+            stack.append(_Frame(obj, path, ev.anchor, line))
+            total += 1
+        elif kind is yaml.MappingEndEvent or kind is yaml.SequenceEndEvent:
+            f = stack.pop()
+            for merged, line in f.merges:  # keys of the mapping itself win, then earlier merges
+                for m in merged if isinstance(merged, list) else [merged]:
+                    if not isinstance(m, dict):
+                        raise fail(line, "a merge (<<) takes a mapping or a list of mappings")
+                    for k, v in m.items():
+                        f.obj.setdefault(k, v)
+            if f.anchor:
+                sizes[f.anchor] = f.size
+            add(f.obj, f.start, f.size)
+        elif kind is yaml.DocumentStartEvent:
+            documents += 1
+            if documents > 1:
+                raise fail(ev.start_mark.line + 1, "holds more than one YAML document")
         if total > max_nodes:
-            raise _yaml_fail(
-                source,
-                ev.start_mark.line + 1,
-                f"more than {max_nodes} values once its aliases are expanded",
-                error,
-            )
+            break
+    if total > max_nodes:
+        raise fail(
+            ev.start_mark.line + 1, f"more than {max_nodes} values once its aliases are expanded"
+        )
+    return (root[0] if root else None), lines
 
 
-def _key_lines(node) -> dict[str, int]:
-    """Dotted key path -> 1-based line, walking each node once (aliases not re-entered)."""
-    out: dict[str, int] = {}
-    seen: set[int] = set()
-    todo = [(node, "")]
-    while todo:
-        n, path = todo.pop()
-        if id(n) in seen:
-            continue
-        seen.add(id(n))
-        if isinstance(n, yaml.MappingNode):
-            for k, v in n.value:
-                p = f"{path}.{k.value}" if path else str(k.value)
-                out.setdefault(p, k.start_mark.line + 1)
-                todo.append((v, p))
-        elif isinstance(n, yaml.SequenceNode):
-            for i, v in enumerate(n.value):
-                p = f"{path}[{i}]"
-                out[p] = v.start_mark.line + 1
-                todo.append((v, p))
-    return out
+_MERGE_KEY = object()
 
 
 def load_yaml(
@@ -456,27 +518,21 @@ def load_yaml(
     """
     if len(text) > max_bytes:
         raise _yaml_fail(source, None, f"more than {max_bytes} characters of YAML", error)
+    loader = _LimitedLoader(text)
     try:
-        loader = _LimitedLoader(text)
-        try:
-            _check_events(loader, source, error, max_depth, max_nodes)
-        finally:
-            loader.dispose()
-        loader = _LimitedLoader(text)
-        try:
-            node = loader.get_single_node()
-            data = loader.construct_document(node) if node is not None else None
-        finally:
-            loader.dispose()
+        data, lines = _build(
+            loader,
+            lambda line, cause: _yaml_fail(source, line, cause, error),
+            max_depth,
+            max_nodes,
+        )
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         problem = getattr(exc, "problem", None) or "malformed YAML"
-        if getattr(exc, "context", None) and "expected a single document" in exc.context:
-            problem = "holds more than one YAML document"
         raise _yaml_fail(source, mark.line + 1 if mark else None, problem, error) from None
-    except RecursionError:  # pragma: no cover - the depth check comes first
-        raise _yaml_fail(source, None, "nested too deeply", error) from None
-    return YamlDocument(data, source, _key_lines(node) if node is not None else {})
+    finally:
+        loader.dispose()
+    return YamlDocument(data, source, lines)
 
 
 def read_yaml(
