@@ -491,3 +491,35 @@ def test_slice_output_replaced_keeps_its_mode(workspace, tmp_path):
     out.chmod(0o604)
     s = slice_dump(workspace, [str(dump)], out, make_slice(workspace))
     assert s.written == 2000 and stat.S_IMODE(out.stat().st_mode) == 0o604
+
+
+# item 7: a line over 16 MB through the Python parser (any line when slicing) ended in
+# "MemoryError: Reached the buffer maximal size"; without slicing the same line imported
+def test_line_over_16_mb_imports_when_sliced(workspace, tmp_path):
+    from kgkit.ingest import make_slice
+
+    text = "\\u00e9\\t" + "x" * (17 << 20)  # escapes in it: the value must be decoded
+    long_line = f'_:n <{E}note> "{text}"@en .\n'.encode()
+    path = tmp_path / "long.nt"
+    path.write_bytes(
+        f'_:n <{E}label> "short"@en .\n'.encode()
+        + long_line
+        + f'<{E}a> <{E}note> "{"y" * (17 << 20)}\\q" .\n'.encode()  # a bad escape: rejected
+        + f'<{E}a> <{E}label> "fr"@fr .\n'.encode()
+    )
+    sl = make_slice(workspace, literal_languages=["en"])
+    (s,) = import_files(
+        workspace, [str(path)], ImportOptions(graph="g", on_error="skip", slice=sl, jobs=1)
+    )
+    assert (s.read, s.loaded, s.filtered, s.rejected) == (4, 2, 1, 1)
+    with open_store(workspace.store_path) as store:
+        g = ox.NamedNode(current_graphs(store)["g"])
+        notes = [q.object for q in store.quads_for_pattern(None, ox.NamedNode(f"{E}note"), None, g)]
+        subjects = {q.subject for q in store.quads_for_pattern(None, None, None, g)}
+    assert len(notes) == 1 and notes[0].language == "en"
+    assert notes[0].value == "\u00e9\t" + "x" * (17 << 20)
+    assert len(subjects) == 1  # the same blank node on the short and the long line
+    turtle = tmp_path / "long.ttl"
+    turtle.write_bytes(long_line.replace(b"_:n", f"<{E}a>".encode()))
+    message = _error(workspace, turtle, ImportOptions(graph="t"))
+    assert message.startswith(f"{turtle}: a term longer than the parser's 16 MB buffer")

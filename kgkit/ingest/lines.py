@@ -224,6 +224,109 @@ class ChunkResult:
     blank_text: bytes = b""
 
 
+#: pyoxigraph's parser holds one term in a buffer of at most 16 MiB ("Reached the buffer
+#: maximal size"): a line longer than this is parsed with its long string literals swapped
+#: out for short stand-ins, then put back
+_LONG_LINE = 8 << 20
+_LONG_LITERAL = 1 << 20
+_ESCAPE = re.compile(r"\\(u[0-9A-Fa-f]{4}|U[0-9A-Fa-f]{8}|[tbnrf\"'\\]|.|$)", re.DOTALL)
+_ECHARS = {"t": "\t", "b": "\b", "n": "\n", "r": "\r", "f": "\f", '"': '"', "'": "'", "\\": "\\"}
+
+
+def _unescape(text: str) -> str:
+    """The value of an N-Triples string: ECHAR and UCHAR escapes resolved.
+
+    >>> _unescape(r"a\\tb\\u00e9\\U0001F600")
+    'a\\tbé😀'
+    """
+
+    def one(m: re.Match) -> str:
+        code = m.group(1)
+        if code in _ECHARS:
+            return _ECHARS[code]
+        if len(code) in (5, 9) and code[0] in "uU":
+            n = int(code[1:], 16)
+            if 0xD800 <= n <= 0xDFFF or n > 0x10FFFF:
+                raise ValueError(f"\\{code} is not a character")
+            return chr(n)
+        raise ValueError(f"bad escape \\{code}")
+
+    return _ESCAPE.sub(one, text) if "\\" in text else text
+
+
+def _string_spans(line: bytes):
+    """(start, end) of the text of each double-quoted string of a line (C-speed finds;
+    a quote inside a string is escaped, and an IRI cannot hold one)."""
+    i = 0
+    while (start := line.find(b'"', i)) >= 0:
+        j = start + 1
+        while True:
+            end = line.find(b'"', j)
+            if end < 0:
+                return
+            k = end - 1
+            while line[k] == 0x5C:  # backslashes before the quote: odd means escaped
+                k -= 1
+            if (end - 1 - k) % 2 == 0:
+                break
+            j = end + 1
+        yield start + 1, end
+        i = end + 1
+
+
+def _parse_long(line: bytes, fmt: ox.RdfFormat) -> list:
+    """The statements of a line too long for the parser's buffer.
+
+    Raises ``SyntaxError`` or ``ValueError`` (a bad escape, bytes that are not UTF-8) for
+    a bad line, like a parse of the line alone.
+    """
+    swapped: dict[str, bytes] = {}
+    line = line.rstrip(b"\r\n")
+    parts, at = [], 0
+    for start, end in _string_spans(line):
+        if end - start >= _LONG_LITERAL:
+            key = f"kgkit-long-literal-{len(swapped)}"
+            swapped[key] = line[start:end]
+            parts += [line[at:start], key.encode()]
+            at = end
+    short = b"".join([*parts, line[at:]])
+    if len(short) > _LONG_LINE:
+        raise ValueError("a term other than a string literal is longer than 8 MB")
+    quads = list(ox.parse(input=short + b"\n", format=fmt))
+
+    def back(t):
+        if isinstance(t, ox.Literal) and t.value in swapped:
+            value = _unescape(swapped[t.value].decode("utf-8"))
+            if t.language:
+                return ox.Literal(value, language=t.language)
+            return ox.Literal(value, datatype=t.datatype)
+        if isinstance(t, ox.Triple):
+            return ox.Triple(back(t.subject), t.predicate, back(t.object))
+        return t
+
+    return [ox.Quad(q.subject, q.predicate, back(q.object), q.graph_name) for q in quads]
+
+
+def parse_statements(data: bytes, fmt: ox.RdfFormat = ox.RdfFormat.N_TRIPLES) -> list:
+    """The statements of ``data``, lines that the parser cannot hold whole included.
+
+    For text kgkit wrote itself (valid, one statement per line).
+    """
+    if len(data) <= _LONG_LINE:
+        return list(ox.parse(input=data, format=fmt))
+    out: list = []
+    short: list[bytes] = []
+    for line in split_lines(data):
+        if len(line) > _LONG_LINE:
+            out.extend(ox.parse(input=b"".join(short), format=fmt))
+            short = []
+            out.extend(_parse_long(line, fmt))
+        else:
+            short.append(line)
+    out.extend(ox.parse(input=b"".join(short), format=fmt))
+    return out
+
+
 def _drop_deep(data: bytes, first: int) -> tuple[bytes, list]:
     """``data`` with lines nesting triple terms too deep emptied, and their rejects.
 
@@ -327,7 +430,7 @@ def process_chunk(
         for q in ox.parse(input=data, format=fmt):
             take(q)
         lines = []  # the whole chunk parsed: no need to look at its lines
-    except SyntaxError:
+    except (SyntaxError, MemoryError):  # MemoryError: a term over the parser's 16 MB
         res.read, res.filtered = read, filtered
         if sifted is not None:  # not expected (the subset parses): parse the chunk whole
             data, (res.read, res.filtered) = whole, before
@@ -336,6 +439,23 @@ def process_chunk(
     pos, window = 0, len(lines)
     while pos < len(lines):
         seg = lines[pos : pos + window]
+        long_at = next((i for i, x in enumerate(seg) if len(x) > _LONG_LINE), None)
+        if long_at == 0:
+            try:
+                quads = _parse_long(seg[0], fmt)
+            except (SyntaxError, ValueError) as exc:
+                if isinstance(exc, UnicodeError):
+                    cause = "not UTF-8 text"
+                else:
+                    cause = cause_of(exc) if isinstance(exc, SyntaxError) else str(exc)
+                res.rejects.append((first + pos, None, cause, decode(seg[0])))
+                quads = []
+            for q in quads:
+                take(q)
+            pos += 1
+            continue
+        if long_at is not None:
+            seg = seg[:long_at]
         quads = []
         bad = None
         try:

@@ -358,7 +358,7 @@ class _Pending:
             run.load_quads(res.quads)
         if res.blank_text:
             self.wait()
-            run.load_quads(ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES))
+            run.load_quads(_lines.parse_statements(res.blank_text))
 
     def flush_raw(self) -> None:
         if self.raw:
@@ -467,6 +467,14 @@ def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
             q = next(parser)
         except StopIteration:
             break
+        except MemoryError:  # pyoxigraph: "Reached the buffer maximal size of 16777216"
+            raise ParseError(
+                source.label,
+                None,
+                None,
+                "a term longer than the parser's 16 MB buffer; "
+                "only N-Triples and N-Quads can hold terms that long",
+            ) from None
         except SyntaxError as exc:
             where = (exc.lineno, exc.offset)
             if where == last:

@@ -113,7 +113,7 @@ def _parent_edges(
         )
         with engine.results(label, spec) as (results, _tick):
             for res in results:
-                for t in ox.parse(input=res.text, format=ox.RdfFormat.N_TRIPLES):
+                for t in _lines.parse_statements(res.text):
                     if isinstance(t.object, ox.NamedNode):
                         edges[t.object.value].add(t.subject.value)
     return edges
