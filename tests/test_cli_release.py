@@ -61,7 +61,10 @@ def test_release_cycle_from_the_shell(kgkit, workspace):
         f"{home / '1.0.0'} -> {home / '2.0.0'}: 5 changes",
         "  deprecated           1",
     ]
-    assert "deprecated dragon-boat, replaced by dragon-boat-racing  (graph)" in d.output
+    assert (
+        "deprecated dragon boat (dragon-boat), replaced by dragon boat racing (dragon-boat-racing)  (graph)"
+        in d.output
+    )
 
     v = kgkit("verify", str(home / "2.0.0"))
     assert v.exit_code == 0 and v.output == f"{home / '2.0.0'}: release 2.0.0 intact (7 files)\n"

@@ -202,7 +202,10 @@ def test_worked_cycle(workspace):
     ] == [("beach-volleyball", "beach volleyball", "no-longer-given", [])]
     md = (r2.path / "changelog.md").read_text(encoding="utf-8")
     assert md.startswith("# sport 2.0.0\n\nChanges since 1.0.0. Version: major")
-    assert "- deprecated dragon-boat, replaced by dragon-boat-racing  (graph)" in md
+    assert (
+        "- deprecated dragon boat (dragon-boat), replaced by dragon boat racing "
+        "(dragon-boat-racing)  (graph)" in md
+    )
     assert "## Curation edits that no longer apply" not in md
     # the curated edits still apply
     assert t2["canoe-polo"]["aliases"] == {"en": ["kayak polo", "polo in canoes"]}

@@ -197,13 +197,16 @@ def test_diff_folders_and_errors(tmp_path):
             "kind": "relabelled",
             "topic": "sailing",
             "ids": ["sailing"],
+            "labels": {"sailing": "sail racing"},
             "cause": "graph",
             "language": "en",
             "before": "sailing",
             "after": "sail racing",
         }
     ]
-    assert 'relabelled sailing [en]: "sailing" -> "sail racing"  (graph)' in d.to_text()
+    assert (
+        'relabelled sail racing (sailing) [en]: "sailing" -> "sail racing"  (graph)' in d.to_text()
+    )
     (tmp_path / "bad").mkdir()
     (tmp_path / "bad" / "topics.jsonl").write_text('{"id": "a"}\n{"id": \n')
     with pytest.raises(BuildFileError, match=r"bad/topics.jsonl:2: not a JSON object"):
@@ -223,7 +226,17 @@ def test_changelog_markdown():
     new["rowing"] = topic("rowing", "rowing", ["sport"])
     d = diff(base(), new)
     version, level = next_version(Version(1, 0, 0), d.kinds())
-    stale = [{"action": "add_alias", "edit": 0, "target": "ghost", "alias": "x", "reason": "gone"}]
+    stale = [
+        {
+            "action": "add_alias",
+            "edit": 1,
+            "file": "sport.curation.yaml",
+            "line": 2,
+            "target": "ghost",
+            "alias": "x",
+            "reason": "gone",
+        }
+    ]
     data = changelog_data("sport", str(version), "1.0.0", d, level, False, stale)
     assert data["counts"] == {"removed": 1, "added": 1}
     assert changelog_markdown(data, d) == (
@@ -231,10 +244,10 @@ def test_changelog_markdown():
         "Changes since 1.0.0. Version: major (a topic was removed or deprecated, "
         "or an id changed).\n\n"
         "| change | topics |\n|---|---|\n| removed | 1 |\n| added | 1 |\n\n"
-        '## Removed\n\n- removed sailing "sailing"  (graph)\n\n'
-        '## Added\n\n- added rowing "rowing"  (graph)\n\n'
+        "## Removed\n\n- removed sailing (sailing)  (graph)\n\n"
+        "## Added\n\n- added rowing (rowing)  (graph)\n\n"
         "## Curation edits that no longer apply\n\n"
-        '- edit 0: add_alias ghost (alias: "x"): gone\n'
+        '- sport.curation.yaml:2: edit 1 (add_alias ghost), alias: "x": gone\n'
     )
 
 
@@ -269,14 +282,3 @@ def test_attribution_of_merges_and_excluded_subtrees():
     ]
     # without the report, the same changes come from the graph
     assert {c.cause for c in diff(old, new).changes} == {"graph"}
-
-
-def test_doctests():
-    import doctest
-
-    import kgkit.release.diffing
-    import kgkit.release.lint
-    import kgkit.release.versioning
-
-    for m in (kgkit.release.diffing, kgkit.release.lint, kgkit.release.versioning):
-        assert doctest.testmod(m).failed == 0, m.__name__

@@ -189,9 +189,9 @@ def test_curation_edits_apply_and_stale_ones_are_reported(tmp_path):
     assert t["dragon-boat"]["origin"] == "curation" and t["dragon-boat"]["source"] is None
     assert t["dragon-boat"]["iri"] == "http://example.org/vocab/sport/dragon-boat"
     stale = report(b)["curation"]["stale"]
-    assert [(s["edit"], s["target"]) for s in stale] == [(6, "gone-topic"), (7, "rowing")]
+    assert [(s["edit"], s["target"]) for s in stale] == [(7, "gone-topic"), (8, "rowing")]
     assert report(b)["curation"]["applied"][0]["note"] == "desk"
-    with pytest.raises(SpecError, match=r"edit 6 \(add_alias gone-topic\) is stale"):
+    with pytest.raises(SpecError, match=r"edit 7 \(add_alias gone-topic\) is stale"):
         build_vocabulary(WS, spec(), SELECTED, graph(), edits, strict=True)
 
 

@@ -120,7 +120,7 @@ def test_stale_settle_passes_strict(workspace):
     spec = load_case(workspace, "lexicon-rules")
     with pytest.raises(SpecError) as exc:
         compile_vocabulary(workspace, spec, strict=True)
-    assert "edit 1 (settle treble) is stale: topic 'bass-voice' does not have this name" in str(
+    assert "edit 2 (settle treble) is stale: topic 'bass-voice' does not have this name" in str(
         exc.value
     )
     assert not (workspace.vocab_dir / "lexrules" / "build").exists()

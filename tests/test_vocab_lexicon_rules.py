@@ -97,12 +97,14 @@ def test_settle_edit_not_carried_to_the_alias_stage(tmp_path):
     assert res.applied == [
         {
             "action": "settle",
-            "edit": 0,
+            "edit": 1,
+            "file": path.name,
             "keep": ["bass-fish"],
+            "line": 2,
             "note": "the food desk's word",
             "target": "Bass",
         }
     ]
     assert [(s["edit"], s["reason"]) for s in res.stale] == [
-        (1, "topic 'gone' is not in the vocabulary")
+        (2, "topic 'gone' is not in the vocabulary")
     ]

@@ -8,6 +8,7 @@ import click
 
 from kgkit.cli.common import echo_json, get_workspace, is_terminal
 from kgkit.vocab.compile import compile_vocabulary
+from kgkit.vocab.curation import curation_summary
 from kgkit.wording import counted
 
 
@@ -16,7 +17,8 @@ from kgkit.wording import counted
 @click.option(
     "--strict",
     is_flag=True,
-    help="Treat a stale curation edit as an error (default: report it and go on).",
+    help="Treat a stale curation edit or a release gate problem as an error (default: "
+    "report it and go on).",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress display.")
@@ -55,9 +57,14 @@ def compile_command(ctx, spec, strict, as_json, quiet):
             f"{counted(s['cycles_broken'], 'cycle link')} broken, "
             f"{counted(s['ambiguous_keys'], 'ambiguous key')}"
         )
+        c = result.vocabulary.report.counts
+        if any(c.get(k) for k in ("curation_applied", "curation_stale", "curation_overridden")):
+            click.echo(curation_summary(c) + " (see report.txt)")
         if s["stale"]:
             click.echo(f"{counted(s['stale'], 'stale curation edit')}: see report.txt", err=True)
         click.echo(f"wrote {s['output']}")
+    for p in result.problems:  # what a release would refuse
+        click.echo(f"Warning: release gate {p.gate}: {p.message}", err=True)
     if as_json:
         echo_json({**s, "seconds": round(time.perf_counter() - t0, 3)})
 

@@ -44,12 +44,17 @@ def changelog_data(
     forced: bool,
     stale: list,
     waived: list | tuple = (),
+    vocab=None,
 ) -> dict:
     """The changelog as plain data (what ``changelog.json`` holds).
 
     ``waived``: the release gates the owner released past, each ``{"gate", "reason",
-    "problems"}`` (see :func:`kgkit.release.gates.waived_record`).
+    "problems"}`` (see :func:`kgkit.release.gates.waived_record`). ``vocab``: the
+    released :class:`~kgkit.vocab.model.Vocabulary`, whose report lists the names
+    carried from deprecated topics to their replacements and the names that no
+    longer match any topic (``names_carried``, ``names_lost``; topics by label).
     """
+    carried, lost = _names(vocab, previous)
     return {
         "vocabulary": name,
         "version": version,
@@ -60,7 +65,30 @@ def changelog_data(
         "changes": [c.to_json() for c in diff.changes] if previous is not None else [],
         "stale_curation": stale,
         "waived_gates": list(waived),
+        "names_carried": carried,
+        "names_lost": lost,
     }
+
+
+def _names(vocab, previous) -> tuple[list[dict], list[dict]]:
+    if vocab is None or previous is None:
+        return [], []
+    report = vocab.report
+
+    def label(tid):
+        return vocab.display_label(tid) if tid in vocab else None
+
+    carried = [
+        {**c, "from_label": label(c["from"]), "to_label": label(c["to"])}
+        for c in report.carried_names or ()
+    ]
+    lost = [
+        {k: n.get(k) for k in ("name", "language", "topic", "label", "reason", "kind")}
+        for n in report.lost_names or ()
+        if not n.get("still_matches")
+    ]
+    lost.sort(key=lambda n: (n["name"].casefold(), n["name"], n["language"], n["topic"]))
+    return carried, lost
 
 
 def changelog_json(data: dict) -> str:
@@ -97,6 +125,30 @@ def changelog_markdown(data: dict, diff: VocabDiff) -> str:
                 lines += [f"## {title}", ""]
                 lines += [f"- {describe(c)}" for c in items]
                 lines.append("")
+    from kgkit.release.gates import topic_text
+
+    if data.get("names_lost"):
+        lines += [
+            "## Names no longer matched",
+            "",
+            "Annotators lose these words: no topic of this release matches them.",
+            "",
+        ]
+        for n in data["names_lost"]:
+            lines.append(
+                f"- {json.dumps(n['name'], ensure_ascii=False)} [{n['language'] or 'untagged'}],"
+                f" was a name of {topic_text(n['label'], n['topic'])}: {n['reason']}"
+            )
+        lines.append("")
+    if data.get("names_carried"):
+        lines += ["## Names carried to a replacement", ""]
+        for c in data["names_carried"]:
+            lines.append(
+                f"- {json.dumps(c['name'], ensure_ascii=False)} [{c['language'] or 'untagged'}]"
+                f" from {topic_text(c['from_label'], c['from'])}"
+                f" to {topic_text(c['to_label'], c['to'])}: {c['result']}"
+            )
+        lines.append("")
     if data["stale_curation"]:
         lines += ["## Curation edits that no longer apply", ""]
         for edit in data["stale_curation"]:
@@ -106,17 +158,19 @@ def changelog_markdown(data: dict, diff: VocabDiff) -> str:
 
 
 def _edit_line(edit) -> str:
+    """``FILE:LINE: edit N (action target): its fields: reason [note: ...]``."""
+    from kgkit.vocab.curation import edit_text
+
     if not isinstance(edit, dict):
         return str(edit)
-    skip = {"edit", "action", "target", "reason", "note"}
+    skip = {"edit", "action", "target", "reason", "note", "file", "line", "carried"}
+    skip.add("overridden_by")
     args = ", ".join(
         f"{k}: {json.dumps(v, ensure_ascii=False)}"
         for k, v in sorted(edit.items())
         if k not in skip
     )
-    head = f"edit {edit['edit']}: " if "edit" in edit else ""
-    what = " ".join(str(edit[k]) for k in ("action", "target") if k in edit)
-    line = f"{head}{what}" + (f" ({args})" if args else "")
+    line = edit_text(edit) + (f", {args}" if args else "")
     if edit.get("reason"):
         line += f": {edit['reason']}"
     if edit.get("note"):

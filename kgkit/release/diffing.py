@@ -29,8 +29,9 @@ Change kinds (the version part each one bumps is in
 
 from __future__ import annotations
 
+import dataclasses
 import json
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -44,6 +45,7 @@ __all__ = [
     "VocabDiff",
     "diff_folders",
     "diff_topics",
+    "display_languages_of",
 ]
 
 _KIND_ORDER = (
@@ -63,7 +65,8 @@ _KIND_ORDER = (
 
 @dataclass(frozen=True)
 class Change:
-    """One change to one topic."""
+    """One change to one topic. ``labels``: the label a person sees for each topic id
+    the change names (its ``ids``, and the parents of a move)."""
 
     kind: str
     topic: str
@@ -72,17 +75,27 @@ class Change:
     language: str | None = None
     before: object = None
     after: object = None
+    labels: Mapping[str, str] = field(default_factory=dict, compare=False, hash=False)
 
     def to_json(self) -> dict:
         return {
             "kind": self.kind,
             "topic": self.topic,
             "ids": list(self.ids),
+            "labels": dict(sorted(self.labels.items())),
             "cause": self.cause,
             "language": self.language,
             "before": self.before,
             "after": self.after,
         }
+
+    def shown(self, topic_id: str | None) -> str:
+        """A topic id of this change as a person reads it: label beside id."""
+        from kgkit.release.gates import topic_text
+
+        if topic_id is None:
+            return "(nothing)"
+        return topic_text(self.labels.get(topic_id), topic_id)
 
     def sort_key(self):
         return (
@@ -142,6 +155,10 @@ def _show(value) -> str:
     return json.dumps(value, ensure_ascii=False)
 
 
+def _parents(c: Change, ids) -> str:
+    return "[" + ", ".join(c.shown(i) for i in ids) + "]" if ids else "(none)"
+
+
 def describe(c: Change) -> str:
     """One readable line for a change."""
     lang = (
@@ -149,28 +166,29 @@ def describe(c: Change) -> str:
         if c.kind in ("relabelled", "alias-added", "alias-removed")
         else ""
     )
+    t = c.shown(c.topic)
     if c.kind == "added":
-        what = f"added {c.topic} {_show(c.after)}"
+        what = f"added {t}"
     elif c.kind == "removed":
-        what = f"removed {c.topic} {_show(c.before)}"
+        what = f"removed {t}"
     elif c.kind == "deprecated":
-        what = f"deprecated {c.topic}, replaced by {c.after or '(nothing)'}"
+        what = f"deprecated {t}, replaced by {c.shown(c.after)}"
     elif c.kind == "restored":
-        what = f"restored {c.topic}"
+        what = f"restored {t}"
     elif c.kind == "id-changed":
-        what = f"id changed {c.before} -> {c.after}"
+        what = f"id of {c.labels.get(c.after) or c.after} changed {c.before} -> {c.after}"
     elif c.kind == "moved":
-        what = f"moved {c.topic}: parents {_show(c.before)} -> {_show(c.after)}"
+        what = f"moved {t}: parents {_parents(c, c.before)} -> {_parents(c, c.after)}"
     elif c.kind == "relabelled":
-        what = f"relabelled {c.topic}{lang}: {_show(c.before)} -> {_show(c.after)}"
+        what = f"relabelled {t}{lang}: {_show(c.before)} -> {_show(c.after)}"
     elif c.kind == "alias-added":
-        what = f"alias added to {c.topic}{lang}: {_show(c.after)}"
+        what = f"alias added to {t}{lang}: {_show(c.after)}"
     elif c.kind == "alias-removed":
-        what = f"alias removed from {c.topic}{lang}: {_show(c.before)}"
+        what = f"alias removed from {t}{lang}: {_show(c.before)}"
     elif c.kind == "notation-changed":
-        what = f"notation of {c.topic}: {_show(c.before)} -> {_show(c.after)}"
+        what = f"notation of {t}: {_show(c.before)} -> {_show(c.after)}"
     else:
-        what = f"replacement of {c.topic}: {c.before or '(nothing)'} -> {c.after or '(nothing)'}"
+        what = f"replacement of {t}: {c.shown(c.before)} -> {c.shown(c.after)}"
     return f"{what}  ({c.cause})"
 
 
@@ -279,6 +297,41 @@ def _label(t: TopicRecord) -> str | None:
     return labels.get("en") or labels.get("") or (labels[min(labels)] if labels else None)
 
 
+def display_languages_of(*sides: Mapping[str, TopicRecord]) -> tuple[str, ...]:
+    """The label languages of topic maps, the one most topics have a label in first
+    (ties: the smaller tag): the order to show labels in when no spec says it.
+
+    >>> a = {"x": TopicRecord.make("x", labels={"en": "X", "de": "Iks"}),
+    ...      "y": TopicRecord.make("y", labels={"en": "Y"})}
+    >>> display_languages_of(a)
+    ('en', 'de')
+    """
+    counts: dict[str, int] = {}
+    for side in sides:
+        for t in side.values():
+            for lang in t.labels:
+                counts[lang] = counts.get(lang, 0) + 1
+    return tuple(sorted(counts, key=lambda lang: (-counts[lang], lang)))
+
+
+def _with_labels(changes: list[Change], old, new, languages) -> list[Change]:
+    out = []
+    for c in changes:
+        ids = set(c.ids) | {c.topic}
+        if c.kind == "moved":
+            ids |= set(c.before or ()) | set(c.after or ())
+        elif c.kind in ("deprecated", "replacement-changed"):
+            ids |= {x for x in (c.before, c.after) if isinstance(x, str)}
+        labels = {}
+        for i in sorted(ids):
+            t = new.get(i) or old.get(i)
+            label = t.label(languages) if t is not None else None
+            if label:
+                labels[i] = label
+        out.append(dataclasses.replace(c, labels=labels))
+    return out
+
+
 def diff_topics(
     old: Mapping[str, TopicRecord],
     new: Mapping[str, TopicRecord],
@@ -286,8 +339,12 @@ def diff_topics(
     new_report: Report | dict | None = None,
     old_name: str = "old",
     new_name: str = "new",
+    languages: Sequence[str] = (),
 ) -> VocabDiff:
     """Compare two topic maps (id -> :class:`~kgkit.vocab.model.TopicRecord`).
+
+    Each change carries the label of every topic it names, in the first of
+    ``languages`` that has one (default: :func:`display_languages_of` both sides).
 
     >>> a = {"x": TopicRecord.make("x", labels={"en": "X"})}
     >>> b = {"x": TopicRecord.make("x", labels={"en": "Ex"})}
@@ -409,6 +466,7 @@ def diff_topics(
                 )
             )
     changes.sort(key=Change.sort_key)
+    changes = _with_labels(changes, old, new, tuple(languages) or display_languages_of(old, new))
     return VocabDiff(old_name, new_name, changes)
 
 
@@ -424,13 +482,16 @@ def diff_folders(a: Path | str, b: Path | str) -> VocabDiff:
     """Diff two release or build folders (or two ``topics.jsonl`` files)."""
     fa, fb = _topic_file(Path(a)), _topic_file(Path(b))
     try:
+        rb = read_report(fb.parent)
+        languages = ((rb.spec or {}).get("languages") or ()) if rb is not None else ()
         return diff_topics(
             read_topics(fa),
             read_topics(fb),
             read_report(fa.parent),
-            read_report(fb.parent),
+            rb,
             str(a),
             str(b),
+            languages,
         )
     except BuildFileError as exc:
         raise DiffError(str(exc)) from None

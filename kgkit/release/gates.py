@@ -284,7 +284,7 @@ def _curation_refs(ws, spec, edits) -> list[_Ref]:
     out = []
     for e in edits:
         where = f"{spec.curation}:{e.line}" if e.line else str(spec.curation)
-        number = getattr(e, "number", e.index + 1)
+        number = e.index  # counted from 1, as the edit's messages name it
         refs = [(f, e.args[f]) for f in _FIELDS if isinstance(e.args.get(f), str)]
         refs += [("parents", p) for p in e.args.get("parents") or () if isinstance(p, str)]
         for field_name, text in refs:

@@ -278,7 +278,13 @@ def make_release(
     overrides = waived_record(problems, waived, reason)
 
     diff = diff_topics(
-        old, records, old_report, report, str(previous) if previous else "none", "release"
+        old,
+        records,
+        old_report,
+        report,
+        str(previous) if previous else "none",
+        "release",
+        vocab.languages,
     )
     if previous is None:
         diff.changes = []  # nothing to compare a first release with
@@ -295,6 +301,7 @@ def make_release(
         version is not None,
         stale,
         overrides,
+        vocab,
     )
     diff = VocabDiff(str(previous) if previous else "none", str(ver), diff.changes)
     files["changelog.json"] = changelog_json(cl)

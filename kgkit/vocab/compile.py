@@ -62,7 +62,14 @@ from kgkit.vocab.model import (
     assign_ids,
 )
 from kgkit.vocab.prune import prune_topics
-from kgkit.vocab.select import Fetched, fetch_entities, run_popularity, select_topics
+from kgkit.vocab.select import (
+    Fetched,
+    fetch_entities,
+    fetch_parent_links,
+    run_popularity,
+    select_topics,
+    spec_graphs,
+)
 from kgkit.vocab.spec import LanguageRules, VocabSpec, load_spec
 from kgkit.vocab.succession import (
     GraphLinks,
@@ -640,7 +647,12 @@ def make_report(
         new_roots=h.new_roots,
         reattached=h.reattached,
         reductions=h.reductions,
-        spec={"name": spec.name, "namespace": spec.namespace, "scheme": spec.scheme},
+        spec={
+            "languages": list(display_languages(spec)),  # the order to show labels in
+            "name": spec.name,
+            "namespace": spec.namespace,
+            "scheme": spec.scheme,
+        },
         graphs=list(graphs or []),
         extra=extra,
         **(previous or {}),
@@ -833,8 +845,11 @@ def compile_vocabulary(
             return same_as_links(backend, ws.profile["same_as"], sources, spec.graphs)
 
     with _without_cyclic_gc(), connect(ws) as backend:
+        spec_graphs(backend, spec)  # a spec that must name its graphs fails here, first
+        step("fetching parent links")
+        links = fetch_parent_links(backend, ws.profile, spec.graphs, step)
         step("selecting topics")
-        selected = select_topics(backend, spec, ws)
+        selected = select_topics(backend, spec, ws, links)
         step(f"fetching {len(selected)} topics")
         fetched = fetch_entities(
             backend,
@@ -843,7 +858,9 @@ def compile_vocabulary(
             graphs=spec.graphs,
             types=spec.prune.min_instances is not None,
             progress=step,
+            links=links,
         )
+        del links
         popularity = run_popularity(backend, spec) if spec.prune.min_popularity else None
     with _without_cyclic_gc():
         vocab = build_vocabulary(

@@ -7,9 +7,15 @@ action key and an optional free ``note``::
       - add_alias: {topic: canoe-polo, alias: kayak polo, language: en}
         note: what the sports desk calls it
 
-Edits apply in file order, after selection and before pruning. An edit whose
-target is gone, or that would change nothing, is *stale*: it is reported, never
-dropped silently (``strict`` makes it an error).
+Edits apply in file order, after selection and before pruning. They are numbered
+1, 2, 3 as they stand in the file, and every message names the file and line of
+the edit. An edit whose target is gone, or that would change nothing, is *stale*:
+it is reported, never dropped silently (``strict`` makes it an error). An edit that
+applies but is undone by a later one is *overridden* by that edit (reported with
+its number): a ``set_label`` replaced by a later ``set_label`` of the same topic
+and language, an ``add_alias`` taken back by a later ``remove_alias``, an
+``add_parent`` by a later ``remove_parent``, any edit on a topic that a later
+``merge`` or ``exclude`` (directly or through an excluded ancestor) takes away.
 """
 
 from __future__ import annotations
@@ -22,10 +28,19 @@ from pathlib import Path
 
 from kgkit.errors import SpecError
 from kgkit.inputs import read_yaml
+from kgkit.languages import is_language_tag
 from kgkit.vocab.aliases import Settlement, match_key
 from kgkit.vocab.model import Topic
 
-__all__ = ["ACTIONS", "CurationResult", "Edit", "apply_curation", "load_curation"]
+__all__ = [
+    "ACTIONS",
+    "CurationResult",
+    "Edit",
+    "apply_curation",
+    "curation_summary",
+    "edit_text",
+    "load_curation",
+]
 
 #: action -> (required fields, optional fields)
 ACTIONS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
@@ -40,16 +55,21 @@ ACTIONS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "settle": (("name", "keep"), ("language",)),
 }
 _ID = re.compile(r"^[A-Za-z0-9_][A-Za-z0-9._-]*$")
-_LANG = re.compile(r"^([A-Za-z]{1,8}(-[A-Za-z0-9]{1,8})*)?$")
 
 
 @dataclass(frozen=True)
 class Edit:
-    index: int  # position in the file, from 0
+    index: int  # position in the file, from 1 (as people count)
     line: int | None
     action: str
     args: dict
     note: str | None
+    file: str | None = None  # the curation file's name (no folder: reports stay the same)
+
+    @property
+    def where(self) -> str:
+        """``FILE:LINE`` of the edit, as messages name it."""
+        return f"{self.file or 'curation'}{':' + str(self.line) if self.line else ''}"
 
     @property
     def target(self) -> str:
@@ -59,10 +79,44 @@ class Edit:
 
     def describe(self) -> dict:
         out = {"action": self.action, "edit": self.index, "target": self.target}
+        if self.line is not None:
+            out["line"] = self.line
+        if self.file is not None:
+            out["file"] = self.file
         out.update({k: v for k, v in self.args.items() if k not in ("topic", "id", "name")})
         if self.note is not None:
             out["note"] = self.note
         return out
+
+
+def edit_text(entry: dict) -> str:
+    """How a message names an edit of the report: ``FILE:LINE: edit N (action target)``.
+
+    >>> edit_text({"file": "sport.curation.yaml", "line": 6, "edit": 3,
+    ...            "action": "add_alias", "target": "dragon-boat"})
+    'sport.curation.yaml:6: edit 3 (add_alias dragon-boat)'
+    """
+    where = ""
+    if entry.get("file"):
+        where = f"{entry['file']}{':' + str(entry['line']) if entry.get('line') else ''}: "
+    return f"{where}edit {entry.get('edit')} ({entry.get('action')} {entry.get('target')})"
+
+
+def curation_summary(counts: dict) -> str:
+    """One line: how many edits were applied, overridden, carried and stale.
+
+    >>> curation_summary({"curation_applied": 5, "curation_overridden": 1,
+    ...                   "curation_carried": 2, "curation_stale": 0})
+    'curation: 5 edits applied (2 carried to a replacement), 1 overridden, 0 stale'
+    """
+    n = counts.get("curation_applied", 0)
+    carried = counts.get("curation_carried", 0)
+    return (
+        f"curation: {n} edit{'' if n == 1 else 's'} applied"
+        + (f" ({carried} carried to a replacement)" if carried else "")
+        + f", {counts.get('curation_overridden', 0)} overridden"
+        + f", {counts.get('curation_stale', 0)} stale"
+    )
 
 
 def load_curation(path: Path) -> list[Edit]:
@@ -119,7 +173,7 @@ def load_curation(path: Path) -> list[Edit]:
         note = e.get("note")
         if note is not None and not isinstance(note, str):
             raise fail(f"{key}.note", "must be text")
-        edits.append(Edit(i, lines.get(key), action, dict(args), note))
+        edits.append(Edit(i + 1, lines.get(key), action, dict(args), note, path.name))
     return edits
 
 
@@ -128,7 +182,8 @@ def _check_fields(action: str, args: dict, key: str, fail) -> None:
         if f in args and (not isinstance(args[f], str) or not args[f].strip()):
             raise fail(f"{key}.{f}", "must be non-empty text")
     if "language" in args and (
-        not isinstance(args["language"], str) or not _LANG.match(args["language"])
+        not isinstance(args["language"], str)
+        or not is_language_tag(args["language"], allow_empty=True)
     ):
         raise fail(f"{key}.language", "must be a BCP 47 language tag or '' for none")
     if "subtree" in args and not isinstance(args["subtree"], bool):
@@ -153,7 +208,10 @@ def _check_fields(action: str, args: dict, key: str, fail) -> None:
             not isinstance(labels, dict)
             or not labels
             or not all(
-                isinstance(k, str) and _LANG.match(k) and isinstance(v, str) and v.strip()
+                isinstance(k, str)
+                and is_language_tag(k, allow_empty=True)
+                and isinstance(v, str)
+                and v.strip()
                 for k, v in labels.items()
             )
         ):
@@ -161,7 +219,7 @@ def _check_fields(action: str, args: dict, key: str, fail) -> None:
         aliases = args.get("aliases", {})
         if not isinstance(aliases, dict) or not all(
             isinstance(k, str)
-            and _LANG.match(k)
+            and is_language_tag(k, allow_empty=True)
             and isinstance(v, list)
             and all(isinstance(a, str) for a in v)
             for k, v in aliases.items()
@@ -180,6 +238,51 @@ class CurationResult:
     merged: dict[str, str]  # merged topic -> the topic it went into
     settlements: list[Settlement] = field(default_factory=list)  # applied when names are known
     carried: list[dict] = field(default_factory=list)  # applied ones the compile carried
+    #: applied edits a later edit undid, each with ``overridden_by`` (that edit's number)
+    overridden: list[dict] = field(default_factory=list)
+    #: edit number -> the topic id it changed (applied edits that name one topic)
+    targets: dict[int, str] = field(default_factory=dict)
+
+    def override(self, number: int, by: int, why: str) -> None:
+        """Move applied edit ``number`` to :attr:`overridden`, undone by edit ``by``."""
+        for i, entry in enumerate(self.applied):
+            if entry["edit"] == number:
+                del self.applied[i]
+                self.overridden.append({**entry, "overridden_by": by, "reason": why})
+                self.overridden.sort(key=lambda x: x["edit"])
+                return
+
+    def settle_exclusions(self, dropped: dict[str, str]) -> None:
+        """After the exclusions: an applied edit whose topic a curation ``exclude``
+        removed (``dropped``: topic -> reason, as the exclusion stage gives them) is
+        overridden by that exclude when it comes later in the file, and stale when the
+        exclude comes first (it changed nothing that is released)."""
+
+        def excluding_edit(tid: str) -> int | None:
+            seen = set()
+            while tid in dropped and tid not in seen:
+                seen.add(tid)
+                reason = dropped[tid]
+                if reason.startswith("excluded-by-curation:edit-"):
+                    return int(reason.rsplit("-", 1)[1])
+                if not reason.startswith("in-excluded-subtree:"):
+                    return None
+                tid = reason.split(":", 1)[1]
+            return None
+
+        for number, tid in sorted(self.targets.items()):
+            by = excluding_edit(tid)
+            if by is None or by == number:
+                continue
+            entry = next((a for a in self.applied if a["edit"] == number), None)
+            if entry is None or entry["action"] == "exclude":
+                continue
+            if by > number:
+                self.override(number, by, f"edit {by} excludes topic {tid!r}")
+            else:
+                self.applied.remove(entry)
+                self.stale.append({**entry, "reason": f"edit {by} excludes topic {tid!r}"})
+                self.stale.sort(key=lambda x: x["edit"])
 
 
 def apply_curation(
@@ -197,6 +300,12 @@ def apply_curation(
     """
     applied, stale, excluded, merged = [], [], [], {}
     settlements: list[Settlement] = []
+    result = CurationResult(applied, stale, excluded, merged, settlements)
+    # what later edits can undo: (topic, language) -> set_label edit; (topic, language,
+    # key) -> add_alias edit; (topic, parent) -> add_parent edit
+    labels_set: dict[tuple[str, str], int] = {}
+    aliases_added: dict[tuple[str, str, str], int] = {}
+    parents_added: dict[tuple[str, str], int] = {}
 
     def is_topic(ref: str) -> str | None:
         node = resolve(ref)
@@ -239,6 +348,7 @@ def apply_curation(
             for p in graph_parents[t.id]:
                 link(t.id, p)
             applied.append(e.describe())
+            result.targets[e.index] = t.id
             continue
 
         if e.action == "settle":
@@ -272,6 +382,7 @@ def apply_curation(
                 mark_stale("the topic has this name already")
                 continue
             t.aliases.append((lang, a["alias"], "curation"))
+            aliases_added[(tid, lang, key)] = e.index
         elif e.action == "remove_alias":
             key = match_key(a["alias"])
             langs = {lang} if "language" in a else None
@@ -284,11 +395,19 @@ def apply_curation(
                 mark_stale("the topic has no such alias")
                 continue
             t.alias_removals.add((lang if "language" in a else "*", key))
+            for (at, alang, akey), n in list(aliases_added.items()):
+                if at == tid and akey == key and ("language" not in a or alang == lang):
+                    result.override(n, e.index, f"edit {e.index} removes this alias again")
+                    del aliases_added[(at, alang, akey)]
         elif e.action == "set_label":
             if preferred(t).get(lang) == a["label"]:
                 mark_stale("this is the preferred label already")
                 continue
             t.label_override[lang] = a["label"]
+            if (tid, lang) in labels_set:
+                n = labels_set[(tid, lang)]
+                result.override(n, e.index, f"edit {e.index} sets another label")
+            labels_set[(tid, lang)] = e.index
         elif e.action == "exclude":
             excluded.append((tid, bool(a.get("subtree", True)), e.index))
         elif e.action in ("add_parent", "remove_parent"):
@@ -303,12 +422,16 @@ def apply_curation(
                     continue
                 ps.append(parent)
                 link(tid, parent)
+                parents_added[(tid, parent)] = e.index
             else:
                 if parent is None or parent not in ps:
                     mark_stale("the topic does not have this parent")
                     continue
                 ps.remove(parent)
                 unlink(tid, parent)
+                if (tid, parent) in parents_added:
+                    n = parents_added.pop((tid, parent))
+                    result.override(n, e.index, f"edit {e.index} removes this parent again")
         elif e.action == "merge":
             into = is_topic(a["into"])
             if into is None:
@@ -336,5 +459,11 @@ def apply_curation(
             for p in own:
                 unlink(tid, p)
             merged[tid] = into
+            # the merged topic keeps no place in the hierarchy: its parent edits are undone
+            # (its names, curated ones included, go to the topic it is merged into)
+            for (pt, _p), n in list(parents_added.items()):
+                if pt == tid:
+                    result.override(n, e.index, f"edit {e.index} merges the topic into {into!r}")
         applied.append(e.describe())
-    return CurationResult(applied, stale, excluded, merged, settlements)
+        result.targets[e.index] = tid
+    return result

@@ -248,11 +248,18 @@ def report_text(name: str, report: dict) -> str:
         lines.append(
             f"common words (names at or above the spec's Zipf frequency): {c['common_words']}"
         )
-    lines.append(
-        f"curation: {counted(c['curation_applied'], 'edit')} applied, {c['curation_stale']} stale"
-    )
-    for s in report["curation"]["stale"]:
-        lines.append(f"  stale edit {s['edit']} ({s['action']} {s['target']}): {s['reason']}")
+    from kgkit.vocab.curation import curation_summary, edit_text
+
+    lines.append(curation_summary(c))
+    cur = report["curation"]
+    for o in cur.get("overridden") or []:
+        lines.append(f"  {edit_text(o)} overridden by edit {o['overridden_by']}: {o['reason']}")
+    for s in cur.get("carried") or []:
+        lines.append(
+            f"  {edit_text(s)} carried from {s['carried']['from']} to {s['carried']['to']}"
+        )
+    for s in cur["stale"]:
+        lines.append(f"  {edit_text(s)} is stale: {s['reason']}")
     return "\n".join(lines) + "\n"
 
 
