@@ -17,11 +17,15 @@ from dataclasses import dataclass, field
 import pyoxigraph as ox
 
 from kgkit.errors import KgkitError, SpecError
+from kgkit.reachability import invert
 from kgkit.vocab.spec import Selection, VocabSpec
 from kgkit.workspace import Profile, Workspace
 
 __all__ = [
     "Fetched",
+    "ParentLinks",
+    "descendants_by_links",
+    "fetch_parent_links",
     "fetch_entities",
     "run_popularity",
     "scan_predicate",
@@ -59,10 +63,13 @@ def _graph_filter(backend, graphs: tuple[str, ...] | None) -> dict[str, str]:
     return names
 
 
-def scan_predicate(backend, predicate: str, graphs: dict[str, str]) -> Iterator[tuple]:
+def scan_predicate(
+    backend, predicate: str, graphs: dict[str, str], blank_subjects: bool = False
+) -> Iterator[tuple]:
     """(graph name, subject IRI, object term) for every statement with ``predicate``.
 
-    Subjects that are blank nodes are skipped (a topic needs an IRI).
+    Subjects that are blank nodes are skipped (a topic needs an IRI); with
+    ``blank_subjects`` they come too, as ``None``.
     """
     store = getattr(backend, "store", None)
     pred = ox.NamedNode(predicate)
@@ -75,13 +82,116 @@ def scan_predicate(backend, predicate: str, graphs: dict[str, str]) -> Iterator[
                 s = row[0]
                 if type(s) is ox.NamedNode:
                     yield name, s.value, row[1]
+                elif blank_subjects:
+                    yield name, None, row[1]
         return
     from kgkit.query import run_query
 
     res = run_query(backend, f"SELECT ?g ?s ?o WHERE {{ GRAPH ?g {{ ?s {pred} ?o }} }}")
     for g, s, o in res.rows:
-        if isinstance(s, ox.NamedNode) and g is not None and g.value in graphs:
-            yield graphs[g.value], s.value, o
+        if g is not None and g.value in graphs:
+            if isinstance(s, ox.NamedNode):
+                yield graphs[g.value], s.value, o
+            elif blank_subjects:
+                yield graphs[g.value], None, o
+
+
+@dataclass
+class ParentLinks:
+    """Every parent link of the graphs a spec reads, fetched once for the selection
+    and the compile (see :func:`fetch_parent_links`)."""
+
+    parents: dict[str, list[str]]  # child IRI -> parent IRIs, in the order read
+    graphs_of: dict[str, list[str]]  # child IRI -> graph names its parent links are in
+    #: a walk over ``parents`` gives what the ``descendants`` template gives: every graph
+    #: reads its parent links with the predicates a query over all of them uses, and no
+    #: link goes through a blank node (the scan keeps IRIs only)
+    walkable: bool
+
+
+def fetch_parent_links(
+    backend,
+    profile: Profile,
+    graphs: tuple[str, ...] | None = None,
+    progress: Callable[[str], None] | None = None,
+) -> ParentLinks:
+    """Stage ``fetch`` (its first part): every parent link of the graphs read, each graph
+    with its own parent predicates (``graphs:`` in ``kgkit.yaml``)."""
+    gnames = _graph_filter(backend, graphs)
+    read_as = _read_as(backend, profile, gnames)
+    ws = getattr(backend, "ws", None)
+    over = ws.profile_over(sorted(set(gnames.values())))["parent"] if ws is not None else None
+    walkable = all(set(prof["parent"]) == set(over or ()) for prof, _ in read_as.values())
+    parents: dict[str, list[str]] = {}
+    graphs_of: dict[str, list[str]] = {}
+    NamedNode = ox.NamedNode
+    for p, _, _, where in _scans("parent", read_as, gnames, ranked=False):
+        if progress:
+            progress(f"parents <{p}>")
+        for gname, s, o in scan_predicate(backend, p, where, blank_subjects=True):
+            if s is None or type(o) is ox.BlankNode:
+                walkable = False  # a path through a blank node: only the query sees it
+                if s is None:
+                    continue
+            if type(o) is NamedNode:
+                lst = parents.get(s)
+                if lst is None:
+                    parents[s] = [o.value]
+                else:
+                    lst.append(o.value)
+                gl = graphs_of.get(s)
+                if gl is None:
+                    graphs_of[s] = [gname]
+                elif gname not in gl:
+                    gl.append(gname)
+    return ParentLinks(parents, graphs_of, walkable)
+
+
+def _plain_descendants(sel: Selection, ws: Workspace) -> tuple[str, int | None] | None:
+    """(root IRI, max depth) when ``sel`` is the built-in ``descendants`` template over
+    the profile's parent links, whose answer a walk over the fetched links gives."""
+    if sel.template != "descendants" or sel.variable not in (None, "item"):
+        return None
+    if set(sel.params) - {"root", "max_depth", "links"} or "root" not in sel.params:
+        return None
+    if sel.params.get("links", "@parent") != "@parent":
+        return None
+    from kgkit.templates import load_template
+
+    try:
+        if not load_template(ws, "descendants").builtin:
+            return None
+        root = ws.expand(sel.params["root"])
+        depth = sel.params.get("max_depth")
+        limit = int(str(depth)) if depth not in (None, "") else None
+    except (KgkitError, ValueError):
+        return None  # the template run reports the problem
+    if limit is not None and limit < 0:
+        return None
+    return root, limit
+
+
+def descendants_by_links(children: dict[str, list[str]], root: str, limit: int | None) -> set[str]:
+    """What the ``descendants`` template selects: every node below ``root`` along
+    ``children``, at most ``limit`` links down (the root itself never, even on a cycle).
+
+    >>> sorted(descendants_by_links({"r": ["a"], "a": ["b", "r"], "b": ["c"]}, "r", 2))
+    ['a', 'b']
+    """
+    depth = {root: 0}
+    frontier = [root]
+    d = 0
+    while frontier and (limit is None or d < limit):
+        d += 1
+        nxt = []
+        for node in frontier:
+            for c in children.get(node, ()):
+                if c not in depth:
+                    depth[c] = d
+                    nxt.append(c)
+        frontier = nxt
+    del depth[root]
+    return set(depth)
 
 
 def _template_items(backend, sel: Selection, where: str, graphs) -> Iterator[tuple]:
@@ -121,15 +231,31 @@ def spec_graphs(backend, spec: VocabSpec) -> list[str] | None:
     return None
 
 
-def select_topics(backend, spec: VocabSpec, ws: Workspace) -> list[str]:
-    """Source IRIs of the selected topics: template runs, the roots asked for, ``include``.
+def select_topics(
+    backend, spec: VocabSpec, ws: Workspace, links: ParentLinks | None = None
+) -> list[str]:
+    """Stage ``select``: source IRIs of the selected topics: template runs, the roots
+    asked for, ``include``.
+
+    With ``links`` (the parent links the compile fetches anyway), a run of the built-in
+    ``descendants`` template over the profile's parent links is a walk over them
+    instead of a query: the same entities, without evaluating the closure in the store.
 
     Raises :class:`SpecError` for a spec without ``graphs:`` on a store with several
     graphs (:func:`spec_graphs`)."""
     graphs = spec_graphs(backend, spec)
     selected: set[str] = set()
+    children = None
     for n, sel in enumerate(spec.select):
         where = f"{spec.path}: select[{n}]"
+        plain = _plain_descendants(sel, ws) if links is not None and links.walkable else None
+        if plain is not None:
+            if children is None:
+                children = invert(links.parents)
+            selected |= descendants_by_links(children, *plain)
+            if sel.include_root:
+                selected.add(plain[0])
+            continue
         for row, i in _template_items(backend, sel, where, graphs):
             term = row[i]
             if isinstance(term, ox.NamedNode):
@@ -207,6 +333,7 @@ def fetch_entities(
     graphs: tuple[str, ...] | None = None,
     types: bool = False,
     progress: Callable[[str], None] | None = None,
+    links: ParentLinks | None = None,
 ) -> Fetched:
     """Labels, aliases, hidden labels, notations, same-as links (of ``sources``), every
     parent link of the graph (reattachment walks above the selection), and, with
@@ -214,7 +341,8 @@ def fetch_entities(
 
     Each graph is read with its own settings (``graphs:`` in ``kgkit.yaml``, through
     ``backend.ws``): its roles replace those of ``profile`` for its statements, and
-    its untagged labels and aliases arrive in its ``untagged_language``."""
+    its untagged labels and aliases arrive in its ``untagged_language``. ``links``:
+    the parent links, when :func:`fetch_parent_links` read them already."""
     wanted = set(sources)
     gnames = _graph_filter(backend, graphs)
     read_as = _read_as(backend, profile, gnames)
@@ -269,14 +397,12 @@ def fetch_entities(
             if progress:
                 progress(f"aliases <{p}>")
             literals(p, f.aliases, kind, untagged, where)
-    for p, _, _, where in _scans("parent", read_as, gnames, ranked=False):
-        if progress:
-            progress(f"parents <{p}>")
-        for gname, s, o in scan_predicate(backend, p, where):
-            if type(o) is ox.NamedNode:
-                if s in wanted:
-                    note(gname, s)
-                f.parents.setdefault(s, []).append(o.value)
+    if links is None:
+        links = fetch_parent_links(backend, profile, graphs, progress)
+    f.parents = links.parents
+    for s in sorted(wanted & links.graphs_of.keys()):
+        for gname in links.graphs_of[s]:
+            note(gname, s)
     for p, _, _, where in _scans("notation", read_as, gnames, ranked=False):
         for gname, s, o in scan_predicate(backend, p, where):
             if s in wanted and type(o) is ox.Literal:
