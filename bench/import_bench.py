@@ -22,6 +22,15 @@ out-of-profile dump, faster than plain loading of the whole dump. Issue 7: --job
     python bench/import_bench.py --scale 0.1     # a quick smoke run (100k / 400k)
 
 Prints a table and writes bench/out/import_bench.json (bench/out is git-ignored).
+
+``--refresh`` measures the refresh instead (issue 11): importing a dump into a graph that
+already holds it, against importing the same file into a new graph of a new store, at 0.4M
+and 4M statements (times ``--scale``), in ``--repeat`` alternating rounds (medians
+reported); a second refresh while the first one's replaced content still waits; then
+``kgkit reclaim`` of what the refreshes left. Targets: a refresh costs at most 1.3x the time
+and 1.2x the peak memory of the first import. Writes bench/out/refresh_bench.json.
+
+    python bench/import_bench.py --refresh --repeat 3
 """
 
 from __future__ import annotations
@@ -47,6 +56,24 @@ from bench.synth import entities_for_triples, write_synthetic_dump  # noqa: E402
 def _worker(mode: str, dump: str, where: str, extra: list[str]) -> None:
     """Run one measured operation in this (fresh) process; print a JSON line."""
     t0 = time.perf_counter()
+    if mode in ("into", "reclaim"):
+        # an existing workspace (created when absent), default import options
+        from kgkit.ingest import ImportOptions, import_files
+        from kgkit.store import open_store, reclaim
+        from kgkit.workspace import init_workspace, load_workspace
+
+        ws = load_workspace(where) if os.path.isdir(where) else init_workspace(where)
+        t0 = time.perf_counter()
+        if mode == "reclaim":
+            with open_store(ws.store_path, write=True) as store:
+                r = reclaim(store)
+            out = {"statements": r.statements, "graphs": len(r.graphs)}
+        else:
+            (summary,) = import_files(ws, [dump], ImportOptions(graph=extra[0]))
+            out = summary.to_dict()
+        out["seconds"] = time.perf_counter() - t0
+        print(json.dumps(out), flush=True)
+        return
     if mode in ("plain", "plain-named"):
         import pyoxigraph as ox
 
@@ -71,15 +98,20 @@ def _worker(mode: str, dump: str, where: str, extra: list[str]) -> None:
     print(json.dumps(out), flush=True)
 
 
-def _measure(mode: str, dump: Path, extra: list[str] | None = None) -> dict:
-    where = tempfile.mkdtemp(prefix="kgkit-bench-", dir=OUT)
-    target = os.path.join(where, "ws" if mode == "kgkit" else "store")
+def _measure(
+    mode: str, dump: Path, extra: list[str] | None = None, target: str | None = None
+) -> dict:
+    where = None
+    if target is None:  # a fresh folder, removed afterwards
+        where = tempfile.mkdtemp(prefix="kgkit-bench-", dir=OUT)
+        target = os.path.join(where, "ws" if mode == "kgkit" else "store")
     cmd = [sys.executable, __file__, "--worker", mode, str(dump), target, *(extra or [])]
     proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, text=True, cwd=ROOT)
     stdout = proc.stdout.read()
     _, status, usage = os.wait4(proc.pid, 0)
     proc.returncode = os.waitstatus_to_exitcode(status)
-    shutil.rmtree(where, ignore_errors=True)
+    if where is not None:
+        shutil.rmtree(where, ignore_errors=True)
     if proc.returncode != 0:
         raise SystemExit(f"{mode} on {dump} failed (exit {proc.returncode})")
     res = json.loads(stdout.strip().splitlines()[-1])
@@ -106,6 +138,87 @@ def _dump(name: str, triples: int, other_ratio: float) -> tuple[Path, dict]:
     return path, counts
 
 
+def _median(values: list[float]) -> float:
+    v = sorted(values)
+    return (v[(len(v) - 1) // 2] + v[len(v) // 2]) / 2
+
+
+def _refresh(scale: float, repeat: int, reclaim_up_to: int) -> int:
+    """Refresh (import into the graph that holds the same file) against a first import.
+
+    Each round, alternating: a first import into a new store ("new graph"); the same file
+    imported into a store where it is already the graph's content, which the import
+    replaces ("refresh", the graph made beforehand, not counted); then, in that store, the
+    same again ("second refresh", with one replaced content still waiting for reclaim);
+    then ``kgkit reclaim`` of the two replaced contents (dumps up to ``reclaim_up_to``).
+    """
+    results = []
+    ratios = {}
+    for label, n in (("0.4M", 400_000), ("4M", 4_000_000)):
+        size = f"{n * scale / 1e6:g}M"
+        path, counts = _dump(f"synth-{size}", int(n * scale), 0.4)
+        runs: dict[str, list[dict]] = {}
+        for _ in range(repeat):
+            home = tempfile.mkdtemp(prefix="kgkit-refresh-", dir=OUT)
+            ws = os.path.join(home, "ws")
+            _measure("into", path, ["bench"], ws)  # the graph to refresh (not counted)
+            runs.setdefault("new graph", []).append(_measure("into", path, ["bench"]))
+            runs.setdefault("refresh", []).append(_measure("into", path, ["bench"], ws))
+            runs.setdefault("second refresh", []).append(_measure("into", path, ["bench"], ws))
+            if counts["triples"] <= reclaim_up_to:
+                runs.setdefault("reclaim of two replaced contents", []).append(
+                    _measure("reclaim", path, [], ws)
+                )
+            shutil.rmtree(home, ignore_errors=True)
+        for kind, rs in runs.items():
+            results.append(
+                {
+                    "dump": label,
+                    "triples": rs[0]["statements"] if "reclaim" in kind else counts["triples"],
+                    "run": kind,
+                    "seconds": _median([r["seconds"] for r in rs]),
+                    "peak_rss_mb": _median([r["peak_rss_mb"] for r in rs]),
+                    "cpu_seconds": _median([r["cpu_seconds"] for r in rs]),
+                    "load_average": _median([r["load_average"] for r in rs]),
+                    "all_seconds": [round(r["seconds"], 2) for r in rs],
+                }
+            )
+        by = {r["run"]: r for r in results if r["dump"] == label}
+        new = by["new graph"]
+        for kind in ("refresh", "second refresh"):
+            ref = by[kind]
+            ratios[f"{label}: {kind} time / new graph (target <= 1.3)"] = (
+                ref["seconds"] / new["seconds"]
+            )
+            ratios[f"{label}: {kind} CPU time / new graph (not a target)"] = (
+                ref["cpu_seconds"] / new["cpu_seconds"]
+            )
+            ratios[f"{label}: {kind} peak memory / new graph (target <= 1.2)"] = (
+                ref["peak_rss_mb"] / new["peak_rss_mb"]
+            )
+        print(f"  {label}: done", file=sys.stderr, flush=True)
+    print()
+    print("| dump | statements | run | median s | runs (s) | CPU s | peak RSS MB | load avg |")
+    print("|---|---:|---|---:|---|---:|---:|---:|")
+    for r in results:
+        print(
+            f"| {r['dump']} | {r['triples']:,} | {r['run']} | {r['seconds']:.2f} | "
+            f"{', '.join(f'{x:.2f}' for x in r['all_seconds'])} | {r['cpu_seconds']:.1f} | "
+            f"{r['peak_rss_mb']:,.0f} | {r['load_average']:.1f} |"
+        )
+    print()
+    print("| ratio | value | met |")
+    print("|---|---:|---|")
+    for name, value in ratios.items():
+        target = 1.3 if "target <= 1.3" in name else 1.2 if "target <= 1.2" in name else None
+        met = "-" if target is None else "yes" if value <= target else "no"
+        print(f"| {name} | {value:.2f} | {met} |")
+    (OUT / "refresh_bench.json").write_text(
+        json.dumps({"results": results, "ratios": ratios}, indent=2, sort_keys=True) + "\n"
+    )
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--scale", type=float, default=1.0, help="multiply dump sizes by this")
@@ -113,12 +226,23 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument(
         "--only", nargs="+", choices=["1M", "4M", "mostly-other"], help="only these dumps"
     )
+    ap.add_argument(
+        "--refresh", action="store_true", help="measure refreshing a graph (0.4M and 4M)"
+    )
+    ap.add_argument(
+        "--reclaim-up-to",
+        type=int,
+        default=1_000_000,
+        help="with --refresh: measure reclaim on dumps up to this many statements",
+    )
     ap.add_argument("--worker", nargs="+", help=argparse.SUPPRESS)
     args, rest = ap.parse_known_args(argv)
     if args.worker:
         _worker(args.worker[0], args.worker[1], args.worker[2], args.worker[3:] + rest)
         return 0
     OUT.mkdir(exist_ok=True)
+    if args.refresh:
+        return _refresh(args.scale, args.repeat, args.reclaim_up_to)
     m = 1_000_000 * args.scale
     dumps = {
         "1M": _dump(f"synth-{m / 1e6:g}M", int(m), 0.4),
