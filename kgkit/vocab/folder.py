@@ -313,8 +313,8 @@ def vocabulary_files(
         out[FILE_OF_OUTPUT["jsonl"]] = lambda: writers.jsonl_text(vocab.topics)
     if "yaml" in outputs:
         out[FILE_OF_OUTPUT["yaml"]] = lambda: writers.yaml_text(
-            vocab.scheme.to_json(), vocab.topics
-        )
+            vocab.scheme.to_json(), writers.reading_order(vocab.topics, vocab.languages)
+        )  # for people: by hierarchy, then label (topics.jsonl stays sorted by id)
     if "skos" in outputs:
         out[FILE_OF_OUTPUT["skos"]] = lambda: writers.skos_text(
             vocab.scheme.iri, vocab.scheme.title, vocab.topics, vocab.label_tags

@@ -22,6 +22,7 @@ from kgkit.wording import counted
 __all__ = [
     "BuildFileError",
     "read_topics",
+    "reading_order",
     "LEXICON_HEADER",
     "jsonl_text",
     "lexicon_text",
@@ -73,6 +74,52 @@ def _flow(value) -> str:
     if kind is int:
         return str(value)
     return _js(str(value))
+
+
+def reading_order(
+    records: Iterable[TopicRecord], languages: Iterable[str] = ()
+) -> list[TopicRecord]:
+    """Topics in the order a person reads them: each root, then its subtree depth
+    first, siblings by label (in the first of ``languages`` that has one); a topic
+    with several parents under the first one reached; deprecated topics last, by label.
+
+    >>> ts = [TopicRecord.make("b", labels={"en": "boats"}, parents=("s",)),
+    ...       TopicRecord.make("a", labels={"en": "archery"}, parents=("s",)),
+    ...       TopicRecord.make("s", labels={"en": "sport"}),
+    ...       TopicRecord.make("k", labels={"en": "kayaks"}, parents=("b",)),
+    ...       TopicRecord.make("old", labels={"en": "aardvark"}).deprecate(None)]
+    >>> [t.id for t in reading_order(ts)]
+    ['s', 'a', 'b', 'k', 'old']
+    """
+    records = list(records)
+    languages = tuple(languages)
+
+    def key(t: TopicRecord):
+        label = t.label(languages) or ""
+        return (label.casefold(), label, t.id)
+
+    active = {t.id: t for t in records if t.is_active}
+    children: dict[str, list[TopicRecord]] = {}
+    roots = []
+    for t in active.values():
+        known = [p for p in t.parents if p in active]
+        if not known:
+            roots.append(t)
+        for p in known:
+            children.setdefault(p, []).append(t)
+    out: list[TopicRecord] = []
+    seen: set[str] = set()
+    stack = sorted(roots, key=key, reverse=True)
+    while stack:
+        t = stack.pop()
+        if t.id in seen:
+            continue
+        seen.add(t.id)
+        out.append(t)
+        stack.extend(sorted(children.get(t.id, ()), key=key, reverse=True))
+    out.extend(sorted((t for t in active.values() if t.id not in seen), key=key))
+    out.extend(sorted((t for t in records if not t.is_active), key=key))
+    return out
 
 
 def yaml_text(scheme: dict, records: Iterable[TopicRecord]) -> str:
