@@ -225,13 +225,12 @@ def curate_topics(
     resolve = _resolver(ws, ident.topics, ident.ids)
     carried: dict[str, tuple[str, str]] = {}
     if previous is not None and not strict and edits:
-        reps: dict[str, str] = {}
+        found: list[dict[str, str]] = []
 
         def early() -> dict[str, str]:  # asked only when an edit names a topic gone
-            if not reps:
-                reps.update(early_replacements(previous, ident.topics, graph_links))
-                reps.setdefault("", "")
-            return reps
+            if not found:
+                found.append(early_replacements(previous, ident.topics, graph_links))
+            return found[0]
 
         resolve = carrying_resolver(resolve, ident.topics, previous, early, carried)
     curated = apply_curation(
