@@ -53,9 +53,10 @@ __all__ = [
     "VersionError",
 ]
 
-# characters that would break a message over several lines or hide part of it: line and
-# paragraph separators, and the bidirectional controls that reorder what a terminal shows
-_BIDI = frozenset("\u061c\u200e\u200f\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
+# characters that would break a message over several lines or hide part of it: controls,
+# line and paragraph separators, and invisible format characters (the bidirectional
+# controls that reorder what a terminal shows, a byte-order mark, zero-width ones)
+_ESCAPED_CATEGORIES = frozenset({"Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"})
 _NAMED = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
 
 
@@ -74,9 +75,10 @@ def one_line(text: str) -> str:
     """``text`` with every control character escaped, so that it shows as one line.
 
     Escaped: C0 and C1 controls (``\\n``, ``\\x0b``, ``\\x85``...), DEL, the line and
-    paragraph separators ``\\u2028``/``\\u2029``, bidirectional controls, and lone
-    surrogates (a byte of a name that was not UTF-8 shows as ``\\xNN``). Everything else,
-    letters of any script included, is kept.
+    paragraph separators ``\\u2028``/``\\u2029``, invisible format characters (bidirectional
+    controls, a byte-order mark ``\\ufeff``, zero-width ones), private-use and unassigned
+    code points, and lone surrogates (a byte of a name that was not UTF-8 shows as
+    ``\\xNN``). Everything else, letters of any script and spaces included, is kept.
 
     >>> one_line("bad\\nline\\x85 and \\u2028 end")
     'bad\\\\nline\\\\x85 and \\\\u2028 end'
@@ -86,10 +88,7 @@ def one_line(text: str) -> str:
     if text.isprintable():
         return text
     return "".join(
-        _escape_char(ch)
-        if ch in _BIDI or unicodedata.category(ch) in ("Cc", "Cs", "Zl", "Zp")
-        else ch
-        for ch in text
+        _escape_char(ch) if unicodedata.category(ch) in _ESCAPED_CATEGORIES else ch for ch in text
     )
 
 
