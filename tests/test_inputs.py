@@ -545,3 +545,22 @@ def test_unwritable_shell_history_warns_once_and_the_shell_goes_on(demo_copy):
     assert r.stderr.splitlines() == [
         f"Warning: {history}: cannot write (permission denied); history is not kept"
     ]
+
+
+@pytest.mark.parametrize(
+    "text, cause",
+    [
+        ('{"files": {}, "version": ' + HUGE + "}", "an integer of 5000 digits is too long"),
+        ("[" * 100_000 + "]" * 100_000, "nested more than 200 levels deep"),
+        ('{"files": {}, "bytes": NaN}', "NaN is not a JSON number"),
+    ],
+    ids=["huge-int", "nested-100000", "nan"],
+)
+def test_bad_manifest_json_is_one_line(tmp_path, text, cause):
+    from kgkit.errors import ManifestError
+    from kgkit.release.manifest import read_manifest
+
+    (tmp_path / "manifest.json").write_text(text, encoding="utf-8")
+    with pytest.raises(ManifestError) as err:
+        read_manifest(tmp_path)
+    assert cause in str(err.value) and "manifest.json" in str(err.value)

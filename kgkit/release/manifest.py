@@ -38,6 +38,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from kgkit.errors import KgkitError, ManifestError, one_line
+from kgkit.inputs import decode_text, load_json
 
 __all__ = [
     "MANIFEST",
@@ -184,18 +185,8 @@ def read_manifest(folder: Path) -> dict:
         raise ManifestError(f"{one_line(str(path))}: cannot be read (permission denied)") from None
     except OSError as exc:
         raise ManifestError(f"{one_line(str(path))}: cannot be read ({exc.strerror})") from None
-    try:
-        data = json.loads(raw.decode("utf-8"))
-    except UnicodeDecodeError:
-        raise ManifestError(f"{one_line(str(path))}: malformed manifest (not UTF-8 text)") from None
-    except json.JSONDecodeError as exc:
-        raise ManifestError(
-            f"{one_line(str(path))}:{exc.lineno}: malformed manifest ({exc.msg})"
-        ) from None
-    except RecursionError:
-        raise ManifestError(
-            f"{one_line(str(path))}: malformed manifest (nested too deep)"
-        ) from None
+    # kgkit.inputs: UTF-8, nesting and integers bounded, no NaN (one line naming the line)
+    data = load_json(decode_text(raw, str(path), ManifestError), str(path), ManifestError)
     if not isinstance(data, dict) or not isinstance(data.get("files"), dict):
         raise ManifestError(f"{one_line(str(path))}: malformed manifest (no 'files' object)")
     for name, entry in data["files"].items():
