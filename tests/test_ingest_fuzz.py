@@ -1,4 +1,4 @@
-"""Fuzzing the importer: generated bad inputs of every format and compression.
+"""Fuzzing the importer (and the slicer): generated bad inputs of every format and compression.
 
 Seeded (``KGKIT_FUZZ_SEED`` picks another seed) and bounded: a few hundred small inputs,
 each imported in both error modes into one store. For every input: no exception but a
@@ -24,7 +24,8 @@ import pytest
 import zstandard
 
 from kgkit.errors import KgkitError
-from kgkit.ingest import ImportOptions, import_into_store
+from kgkit.ingest import ImportOptions, import_into_store, make_slice
+from kgkit.ingest.slice_dump import slice_dump
 from kgkit.store import current_graphs, open_store
 
 SEED = int(os.environ.get("KGKIT_FUZZ_SEED", "20261202"))
@@ -182,6 +183,22 @@ def _shows_as_one_line(message: str) -> bool:
     return bool(message) and not any(unicodedata.category(c) in hidden for c in message)
 
 
+def _slice_case(workspace, path, output, where: str) -> None:
+    """``kgkit slice`` reads the same inputs: one-line errors, no output on a refusal."""
+    for mode in ("stop", "skip"):
+        signal.alarm(PER_IMPORT_SECONDS)
+        try:
+            slice_dump(workspace, [str(path)], output, make_slice(workspace), on_error=mode)
+        except KgkitError as exc:
+            assert _shows_as_one_line(str(exc)), f"{where} slice {mode}: {exc!s}"
+            assert not output.exists(), f"{where} slice {mode}: output left behind"
+        except _Hang:
+            pytest.fail(f"{where} slice {mode}: no answer in {PER_IMPORT_SECONDS} s")
+        finally:
+            signal.alarm(0)
+        output.unlink(missing_ok=True)
+
+
 def _snapshot(store: ox.Store) -> set[str]:
     return {str(q) for q in store}
 
@@ -241,6 +258,8 @@ def test_generated_bad_inputs_never_traceback_hang_or_change_the_store(tmp_path,
                 ), where
                 if mode == "stop":
                     assert s.rejected == 0, where
+            if fmt in ("nt", "nq", "records"):
+                _slice_case(workspace, path, tmp_path / f"case{i}.out.nt", f"case {i} ({comp})")
     finally:
         signal.signal(signal.SIGALRM, previous)
     # the generator must produce both outcomes, or it tests nothing
@@ -262,7 +281,9 @@ def test_cli_import_of_bad_inputs_is_one_line_and_leaves_the_store(kgkit, worksp
             break
         path = tmp_path / f"cli{i}{ext}"
         path.write_bytes(data)
-        r = kgkit("import", str(path), "--graph", "g", "-q", "--jobs", "1")
+        # every third case in two worker processes: their errors come back through a pool
+        jobs = "2" if i % 3 == 0 else "1"
+        r = kgkit("import", str(path), "--graph", "g", "-q", "--jobs", jobs)
         where = f"case {i} ({fmt}, {comp}): {path}"
         # click's runner keeps an exception that escaped; SystemExit is a normal exit
         assert r.exception is None or isinstance(r.exception, SystemExit), (where, r.exception)
