@@ -274,3 +274,20 @@ def test_compile_warns_of_gate_problems_and_strict_makes_them_errors(kgkit, work
         "(languages.required): ghost (ghost)"
     )
     assert (build / "topics.jsonl").read_bytes() == kept  # the previous build is untouched
+
+
+def test_lint_of_text_in_memory_matches_lint_of_the_file(tmp_path):
+    """lint_turtle (pyoxigraph, used by the gates) finds what lint_path (rdflib) finds."""
+    from kgkit.release.lint import lint_path, lint_turtle
+
+    v = vocab(
+        topic("sport", "sport", "Sport", parents=["swim"]),
+        topic("swim", " ", "Schwimmen", parents=["sport"]),
+        topic("chess", "chess\u0007", None),
+    )
+    skos = vocabulary_files(v, ["skos"])["skos.ttl"]()
+    (tmp_path / "skos.ttl").write_text(skos, encoding="utf-8")
+    by_file = lint_path(tmp_path / "skos.ttl")
+    in_memory = lint_turtle(skos, str(tmp_path / "skos.ttl"))
+    assert in_memory.findings == by_file.findings and by_file.errors
+    assert {f.check for f in by_file.errors} >= {"hierarchy-loop", "blank-label"}
