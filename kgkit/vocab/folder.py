@@ -20,7 +20,7 @@ from collections.abc import Callable, Iterable
 from pathlib import Path
 
 from kgkit.errors import BuildFileError
-from kgkit.inputs import read_json, shape_error
+from kgkit.inputs import load_yaml, read_json, shape_error
 from kgkit.vocab.model import LexiconRow, Report, Scheme, TopicRecord, Vocabulary
 
 __all__ = [
@@ -251,18 +251,15 @@ def read_scheme(folder: Path | str, report: Report | None = None) -> Scheme:
     values: dict[str, str] = {}
     path = folder / FILE_OF_OUTPUT["yaml"]
     if path.is_file():
-        import yaml
-
         head = []
         with open(path, encoding="utf-8") as fh:
             for line in fh:
                 if line.startswith("topics:"):
                     break
                 head.append(line)
-        try:
-            data = yaml.safe_load("".join(head)) or {}
-        except yaml.YAMLError as exc:
-            raise BuildFileError(f"{path}: malformed scheme block ({exc})") from None
+        data = load_yaml("".join(head), str(path), BuildFileError).data or {}
+        if not isinstance(data, dict):
+            raise BuildFileError(f"{path}: malformed scheme block (not a mapping)")
         values = {k: v for k, v in (data.get("scheme") or {}).items() if isinstance(v, str)}
     spec = (report.spec if report else None) or {}
     name = values.get("name") or spec.get("name") or folder.parent.name
