@@ -19,7 +19,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from kgkit.errors import WorkspaceError, one_line
+from kgkit.errors import ArgumentError, WorkspaceError, one_line
 from kgkit.files import write_text_atomic
 from kgkit.inputs import read_yaml
 from kgkit.languages import is_language_tag
@@ -402,8 +402,11 @@ def init_workspace(root: Path | str, languages: tuple[str, ...] = ("en",)) -> Wo
 
     root = Path(root)
     path = root / CONFIG_NAME
-    if path.exists():
-        raise WorkspaceError(f"{path} already exists; not overwriting it")
+    if os.path.lexists(path):
+        raise WorkspaceError(f"{one_line(str(path))} already exists; not overwriting it")
+    for tag in languages:  # checked before anything is written (no half-made workspace)
+        if not is_language_tag(tag):
+            raise ArgumentError("languages", f"{one_line(repr(tag))} is not a BCP 47 language tag")
     root.mkdir(parents=True, exist_ok=True)
     width = max(len(k) for k in DEFAULT_PREFIXES) + 1
     prefixes = "\n".join(f"  {k + ':':<{width}} {v}" for k, v in DEFAULT_PREFIXES.items())

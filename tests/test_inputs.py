@@ -564,3 +564,24 @@ def test_bad_manifest_json_is_one_line(tmp_path, text, cause):
     with pytest.raises(ManifestError) as err:
         read_manifest(tmp_path)
     assert cause in str(err.value) and "manifest.json" in str(err.value)
+
+
+@pytest.mark.parametrize(
+    "args, cause",
+    [
+        (["find", "x", "--limit", "9" * 30], "'--limit': must be at most 9223372036854775807"),
+        (["query", "--timeout", "nan", "ASK {}"], "'--timeout': nan is not a finite number"),
+        (["query", "--timeout", "inf", "ASK {}"], "'--timeout': inf is not a finite number"),
+    ],
+    ids=["int-beyond-64-bits", "nan", "inf"],
+)
+def test_number_option_out_of_bounds_is_a_usage_error(kgkit, args, cause):
+    r = kgkit(*args)
+    assert r.exit_code == 2 and r.output.splitlines()[-1] == f"Error: Invalid value for {cause}"
+
+
+@pytest.mark.parametrize("languages", ["en,d e", "en]", "en,#x"])
+def test_init_with_a_bad_language_writes_nothing(runner, tmp_path, languages):
+    r = runner.invoke(cli, ["init", str(tmp_path / "w"), "--languages", languages])
+    assert r.exit_code == 2 and "--languages: " in one_error_line(r)
+    assert not (tmp_path / "w").exists()

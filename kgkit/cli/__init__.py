@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import functools
 import importlib
+import math
 import signal
 import sys
 
@@ -77,9 +78,23 @@ def _values(value) -> list[str]:
     return []
 
 
+_MAX_INT = 2**63 - 1
+
+
+def _numbers(value) -> list:
+    if isinstance(value, bool):
+        return []
+    if isinstance(value, int | float):
+        return [value]
+    if isinstance(value, list | tuple):
+        return [v for x in value for v in _numbers(x)]
+    return []
+
+
 def _check_text_arguments(cmd: click.Command) -> None:
-    """Make ``cmd`` refuse text arguments that are not UTF-8 (paths excepted) as usage
-    errors, before it runs (once per command object)."""
+    """Make ``cmd`` refuse, as usage errors before it runs, text arguments that are not
+    UTF-8 (paths excepted), numbers that are not finite and integers beyond 64 bits
+    (once per command object)."""
     callback = cmd.callback
     if callback is None or getattr(callback, "_kgkit_checked", False):
         return
@@ -94,6 +109,11 @@ def _check_text_arguments(cmd: click.Command) -> None:
                     check_text(v, p.name)
                 except ArgumentError as exc:
                     raise click.BadParameter(exc.cause, param=p) from None
+            for v in _numbers(kwargs.get(p.name)):
+                if isinstance(v, float) and not math.isfinite(v):
+                    raise click.BadParameter(f"{v} is not a finite number", param=p)
+                if isinstance(v, int) and abs(v) > _MAX_INT:
+                    raise click.BadParameter(f"must be at most {_MAX_INT}", param=p)
         return callback(*args, **kwargs)
 
     checked._kgkit_checked = True
