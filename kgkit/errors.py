@@ -30,6 +30,7 @@ __all__ = [
     "InputError",
     "WorkspaceError",
     "ParseError",
+    "DamagedInputError",
     "NotFoundError",
     "StoreError",
     "StoreInUseError",
@@ -175,6 +176,10 @@ class RecordError(InputError):
 
 class NotFoundError(KgkitError):
     """Something named does not exist: a graph, a template, an entity, a release."""
+
+
+class DamagedInputError(InputError):
+    """A compressed input that is cut short, corrupt, or followed by other bytes."""
 
 
 class StoreError(KgkitError):

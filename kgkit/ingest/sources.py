@@ -27,7 +27,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import BinaryIO
 
-from kgkit.errors import InputError, KgkitError, one_line
+from kgkit.errors import DamagedInputError, InputError, one_line
 
 __all__ = [
     "COMPRESSION_SUFFIXES",
@@ -59,10 +59,6 @@ def detect_compression(head: bytes) -> str:
         if head.startswith(magic):
             return name
     return "none"
-
-
-class DamagedInputError(KgkitError):
-    """A compressed input that is cut short, corrupt, or followed by other bytes."""
 
 
 class _Gzip:
