@@ -16,9 +16,10 @@ bytes the local engine writes to one file.
 A line ends at ``\\n``, ``\\r\\n`` or (Hadoop's reader) a lone ``\\r``; the local engine
 splits only at ``\\n``, so a file with lone carriage returns is numbered differently.
 
-The executors' Python is this interpreter (the ``spark.pyspark.python`` setting of a session
-the engine starts; the process environment is left as it was). A session started elsewhere
-must have been given a Python with kgkit too.
+The executors' Python is this interpreter: PySpark reads it from ``PYSPARK_PYTHON`` when a
+context starts, so a session the engine starts is made with that variable set and the
+variable is put back as it was at once (the context keeps its own copy). A session started
+elsewhere must have been given a Python with kgkit too.
 """
 
 from __future__ import annotations
@@ -64,6 +65,20 @@ def _partition(spec: ChunkSpec):
     return run
 
 
+@contextlib.contextmanager
+def _python_for_executors():
+    """``PYSPARK_PYTHON`` set to this interpreter while a context starts, then restored."""
+    before = os.environ.get("PYSPARK_PYTHON")
+    os.environ["PYSPARK_PYTHON"] = sys.executable
+    try:
+        yield
+    finally:
+        if before is None:
+            os.environ.pop("PYSPARK_PYTHON", None)
+        else:
+            os.environ["PYSPARK_PYTHON"] = before
+
+
 class SparkEngine:
     """A Spark session for the slice; stopped at the end if this engine started it."""
 
@@ -86,10 +101,11 @@ class SparkEngine:
                 .config("spark.ui.enabled", "false")
                 .config("spark.driver.bindAddress", "127.0.0.1")
                 .config("spark.driver.host", "127.0.0.1")
-                # the executors' Python workers run this interpreter (kgkit importable)
-                .config("spark.pyspark.python", sys.executable)
             )
-        self.spark = builder.getOrCreate()
+            with _python_for_executors():
+                self.spark = builder.getOrCreate()
+        else:
+            self.spark = builder.getOrCreate()
         if self._owned:
             self.spark.sparkContext.setLogLevel("ERROR")
 
