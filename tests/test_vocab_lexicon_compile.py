@@ -154,3 +154,19 @@ def test_lexicon_with_or_without_source_column_not_read(tmp_path):
     with pytest.raises(ProbeError) as exc:
         load_lexicon(tmp_path)
     assert "lexicon.tsv:1: expected the tab-separated header" in str(exc.value)
+
+
+def test_compile_summary_silent_about_forms_and_common_words(kgkit, workspace):
+    from test_vocab_compile import load_case
+
+    spec = load_case(workspace, "lexicon-rules")
+    res = kgkit("compile", str(spec))
+    assert res.exit_code == 0, res.output
+    built = read_lexicon(workspace.vocab_dir / "lexrules" / "build" / "lexicon.tsv")
+    forms = sum(1 for r in built if r.kind == "inflected")
+    lines = res.output.splitlines()
+    assert f"{forms} plural forms added to the lexicon" in lines
+    assert any(
+        x.endswith("common words at or above the spec's Zipf frequency (report.json common_words)")
+        for x in lines
+    )

@@ -58,6 +58,13 @@ def compile_command(ctx, spec, strict, as_json, quiet):
             f"{counted(s['ambiguous_keys'], 'ambiguous key')}"
         )
         c = result.vocabulary.report.counts
+        if c.get("inflected_forms"):
+            click.echo(f"{counted(c['inflected_forms'], 'plural form')} added to the lexicon")
+        if "common_words" in s:
+            click.echo(
+                f"{counted(s['common_words'], 'common word')} at or above the spec's Zipf "
+                "frequency (report.json common_words)"
+            )
         if any(c.get(k) for k in ("curation_applied", "curation_stale", "curation_overridden")):
             click.echo(curation_summary(c) + " (see report.txt)")
         if s["stale"]:
