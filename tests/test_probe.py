@@ -159,10 +159,10 @@ def test_cli_probe_text_file_and_stdin(runner, tmp_path):
     assert res.exit_code == 0, res.output
     assert res.output == (
         "1:1 [0:8] 'Kanupolo'\n"
-        "    canoe-polo \u201cKanupolo\u201d  parents: paddle-sports (paddle sports)\n"
+        "    Kanupolo (canoe-polo)  parents: paddle sports (paddle-sports)\n"
         "1:13 [12:19] 'netting' ambiguous\n"
-        "    crop-netting \u201ccrop netting\u201d  parents: gardening (gardening)\n"
-        "    net-mending \u201cnet mending\u201d  parents: crafts (crafts)\n"
+        "    crop netting (crop-netting)  parents: gardening (gardening)\n"
+        "    net mending (net-mending)  parents: crafts (crafts)\n"
         "2 hits\n"
     )
     f = tmp_path / "a.txt"
@@ -199,7 +199,10 @@ def test_cli_probe_corpus_writes_curation(runner, tmp_path):
     assert res.output.splitlines()[0] == (
         "3 documents, 4 hits, 3 match keys; 1 too common (in more than 50% of the documents):"
     )
-    assert "  netting        2   66.7%  crop-netting, net-mending  TOO COMMON" in res.output
+    assert (
+        "  netting        2   66.7%  crop netting (crop-netting), net mending (net-mending)"
+        "  TOO COMMON"
+    ) in res.output
     assert res.output.endswith(f"2 remove_alias edits written to {out}\n")
     assert out.read_text(encoding="utf-8").count("remove_alias") == 2
 

@@ -19,6 +19,7 @@ from kgkit.probe import (
     write_curation_edits,
 )
 from kgkit.review import write_page
+from kgkit.wording import topic_text
 
 
 @click.command("review")
@@ -117,13 +118,14 @@ def probe_command(vocab, text, file, corpus, threshold, write_curation, as_json)
         width = max((len(k.key) for k in report.keys), default=5)
         for k in report.keys:
             flag = "TOO COMMON" if k.flagged else ""
-            topics = ", ".join(k.topics)
+            topics = ", ".join(topic_text(lexicon.label_of(t), t) for t in k.topics)
             click.echo(
                 f"  {k.key:<{width}}  {k.documents:>4}  {k.share:6.1%}  {topics}  {flag}".rstrip()
             )
         for topic, alias, language, _kind in skipped:
             click.echo(
-                f"note: {alias!r} is the preferred label of {topic} [{language or 'untagged'}]; "
+                f"note: {alias!r} is the preferred label of "
+                f"{topic_text(lexicon.label_of(topic), topic)} [{language or 'untagged'}]; "
                 "an alias edit cannot remove it (relabel or exclude the topic by hand)"
             )
         if write_curation:
@@ -140,8 +142,8 @@ def probe_command(vocab, text, file, corpus, threshold, write_curation, as_json)
         mark = "ambiguous" if h.is_ambiguous else ""
         click.echo(f"{line}:{col} [{h.start}:{h.end}] {h.text!r} {mark}".rstrip())
         for c in h.candidates:
-            parents = ", ".join(f"{p} ({lab})" for p, lab in c.parents) or "none (a root)"
-            click.echo(f"    {c.topic} \u201c{c.label}\u201d  parents: {parents}")
+            parents = ", ".join(topic_text(lab, p) for p, lab in c.parents) or "none (a root)"
+            click.echo(f"    {topic_text(c.label, c.topic)}  parents: {parents}")
     click.echo(f"{len(hits)} hits" if len(hits) != 1 else "1 hit")
 
 

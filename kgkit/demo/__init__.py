@@ -37,6 +37,7 @@ from kgkit.review import write_page
 from kgkit.templates import run_template
 from kgkit.vocab.compile import compile_vocabulary
 from kgkit.vocab.curation import load_curation
+from kgkit.wording import topic_text
 from kgkit.worklist import list_shared_names
 from kgkit.workspace import CONFIG_NAME, init_workspace, load_workspace
 
@@ -347,7 +348,8 @@ def iter_demo(directory: Path) -> Iterator[DemoStep]:
     lines = []
     for h in hits[:6]:
         cands = " | ".join(
-            f"{c.topic} (under {', '.join(p for p, _l in c.parents) or 'nothing'})"
+            f"{topic_text(c.label, c.topic)}, under "
+            + (", ".join(topic_text(lab, p) for p, lab in c.parents) or "nothing")
             for c in h.candidates
         )
         mark = "  ambiguous" if h.is_ambiguous else ""

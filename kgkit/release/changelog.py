@@ -125,7 +125,7 @@ def changelog_markdown(data: dict, diff: VocabDiff) -> str:
                 lines += [f"## {title}", ""]
                 lines += [f"- {describe(c)}" for c in items]
                 lines.append("")
-    from kgkit.release.gates import topic_text
+    from kgkit.wording import topic_text
 
     if data.get("names_lost"):
         lines += [

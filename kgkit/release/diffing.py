@@ -91,7 +91,7 @@ class Change:
 
     def shown(self, topic_id: str | None) -> str:
         """A topic id of this change as a person reads it: label beside id."""
-        from kgkit.release.gates import topic_text
+        from kgkit.wording import topic_text
 
         if topic_id is None:
             return "(nothing)"

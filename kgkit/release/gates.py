@@ -38,6 +38,7 @@ from pathlib import Path
 
 from kgkit.errors import ArgumentError, GateError, KgkitError, one_line
 from kgkit.vocab.aliases import lang_matches
+from kgkit.wording import topic_text
 
 __all__ = [
     "DEFAULT_MAX_TOPIC_LOSS",
@@ -87,15 +88,6 @@ class GateProblem:
 
     def to_json(self) -> dict:
         return {"gate": self.gate, "message": self.message}
-
-
-def topic_text(label: str | None, topic_id: str) -> str:
-    """How a person sees a topic in a message: its label beside its id.
-
-    >>> topic_text("canoe polo", "canoe-polo"), topic_text(None, "n0042")
-    ('canoe polo (canoe-polo)', 'n0042 (no label)')
-    """
-    return f"{label} ({topic_id})" if label else f"{topic_id} (no label)"
 
 
 def _shown(vocab, records) -> str:

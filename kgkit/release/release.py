@@ -75,7 +75,7 @@ class ReleaseResult:
 
     def topic_text(self, topic_id: str | None) -> str:
         """A topic as a person reads it: its label beside its id."""
-        from kgkit.release.gates import topic_text
+        from kgkit.wording import topic_text
 
         if topic_id is None:
             return "(no replacement)"
