@@ -67,7 +67,6 @@ _LINKS = frozenset(
         "d'",
         "da",
         "del",
-        "a",
         "à",
         "au",
     ]
