@@ -115,3 +115,26 @@ def test_cli_slice_engine_spark(spark, kgkit, tmp_path):
         assert r.exit_code == 0, r.output
         outs[engine] = out.read_bytes()
     assert outs["local"] == outs["spark"]
+
+
+def test_cli_slice_in_pieces(spark, kgkit, tmp_path):
+    src = tmp_path / "messy.nt.bz2"
+    src.write_bytes(bz2.compress(MESSY.read_bytes()))
+    one, folder = tmp_path / "one.nt", tmp_path / "pieces"
+    r = kgkit("slice", str(src), "-o", str(one), "--on-error", "skip", "--jobs", "2")
+    assert r.exit_code == 0, r.output
+    r = kgkit(
+        "slice", str(src), "-o", str(folder), "--on-error", "skip", "--engine", "spark",
+        "--in-pieces", "--json",
+    )  # fmt: skip
+    assert r.exit_code == 0, r.output
+    names = sorted(p.name for p in folder.iterdir())
+    assert names and names[0] == "piece-00000.nt"
+    assert b"".join((folder / n).read_bytes() for n in names) == one.read_bytes()
+
+
+def test_cli_in_pieces_needs_spark(kgkit, tmp_path):
+    r = kgkit("slice", str(MESSY), "-o", str(tmp_path / "p"), "--in-pieces")
+    assert r.exit_code != 0
+    assert "--in-pieces: needs the spark engine" in r.output, r.output
+    assert not (tmp_path / "p").exists()

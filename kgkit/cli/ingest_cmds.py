@@ -282,6 +282,13 @@ def graphs_command(ctx, as_json):
     "--spark-master",
     help="With --engine spark: the Spark master URL (default local[JOBS]).",
 )
+@click.option(
+    "--in-pieces",
+    "pieces",
+    is_flag=True,
+    help="With --engine spark: OUTPUT is a new folder the executors write the slice into, "
+    "as piece-00000.nt, piece-00001.nt, ...; concatenated in order, they are the one file.",
+)
 @_output_options
 @click.pass_context
 def slice_command(
@@ -298,6 +305,7 @@ def slice_command(
     jobs,
     engine,
     spark_master,
+    pieces,
     as_json,
     quiet,
 ):
@@ -336,6 +344,7 @@ def slice_command(
             progress=bar,
             engine=engine,
             spark_master=spark_master,
+            pieces=pieces,
         )
     finally:
         if bar:

@@ -168,7 +168,7 @@ def slice_dump(
     if engine not in ("local", "spark"):
         raise ArgumentError("engine", f"takes 'local' or 'spark', not {engine!r}")
     if pieces and engine != "spark":
-        raise ArgumentError("pieces", "needs engine='spark' (its executors write the pieces)")
+        raise ArgumentError("pieces", "needs the spark engine (its executors write the pieces)")
     if pieces and Path(output).suffix == ".gz":
         raise ArgumentError("pieces", f"{output}: pieces are plain N-Triples; name a folder")
     if pieces and os.path.lexists(output):
