@@ -388,8 +388,9 @@ def find_workspace(start: Path | str | None = None) -> Workspace:
         if (folder / CONFIG_NAME).is_file():
             return load_workspace(folder)
     raise WorkspaceError(
-        f"no {CONFIG_NAME} in {here} or any folder above it; "
-        "run `kgkit init` or pass --workspace DIR"
+        f"no {CONFIG_NAME} in {one_line(str(here))} or any folder above it; "
+        "run `kgkit init` or give workspace=DIR",
+        params=("workspace",),
     )
 
 

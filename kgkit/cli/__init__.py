@@ -47,12 +47,16 @@ class _Group(click.Group):
             if (ctx.obj or {}).get("debug"):
                 raise
             cmd = self.get_command(ctx, ctx.invoked_subcommand) if ctx.invoked_subcommand else None
-            raise UserError(exc, [*(cmd.params if cmd else ()), *self.params]) from None
+            error = UserError(exc, [*(cmd.params if cmd else ()), *self.params])
         except OSError as exc:
             # permissions, a full or read-only disk: the environment, not a bug
             if (ctx.obj or {}).get("debug") or exc.errno not in ENVIRONMENT_ERRNOS:
                 raise
-            raise UserError(InputError(describe_os_error(exc)), []) from None
+            error = UserError(InputError(describe_os_error(exc)), [])
+        # raised outside the except clause, so that it holds no reference to the original
+        # error: that one's traceback keeps the frames of the failed command alive (an
+        # open store among them, whose lock a next command in this process would meet)
+        raise error
 
 
 class UserError(click.ClickException):
