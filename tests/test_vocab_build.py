@@ -101,7 +101,12 @@ def test_missing_language_dropped_when_the_spec_says_so():
     assert "ball-games" not in t
     assert t["canoe-polo"]["parents"] == ["water-sports"]
     assert report(b)["dropped_topics"] == [
-        {"id": "ball-games", "reason": "missing-language:de", "source": G + "ball-games"}
+        {
+            "id": "ball-games",
+            "label": "ball games",  # a dropped topic is named by its label too
+            "reason": "missing-language:de",
+            "source": G + "ball-games",
+        }
     ]
 
 

@@ -143,7 +143,12 @@ def test_stop_topic_is_dropped_and_its_child_reattached(workspace):
     assert sorted(t) == ["kite-flying", "sport"]
     assert t["kite-flying"]["parents"] == ["sport"]
     assert res.report["dropped_topics"] == [
-        {"id": "other", "reason": "stop-topic", "source": "http://example.org/graph/other"}
+        {
+            "id": "other",
+            "label": "other",
+            "reason": "stop-topic",
+            "source": "http://example.org/graph/other",
+        }
     ]
 
 

@@ -559,6 +559,21 @@ def make_lexicon(
     return lexicon, dropped
 
 
+def _label_to_show(t: Topic, languages: tuple[str, ...]) -> str | None:
+    """A working topic's label for a person: the first of ``languages`` it has one in,
+    else its untagged label, else the one of the smallest tag (as ``TopicRecord.label``)."""
+    labels = {}
+    for lang, text, *_ in t.labels:
+        labels.setdefault(lang, text)
+    if t.label_override:
+        labels.update(t.label_override)
+    for lang in languages:
+        hit = sorted(tag for tag in labels if lang_matches(tag, (lang,)))
+        if hit:
+            return labels[hit[0]]
+    return labels.get("") or (labels[min(labels)] if labels else None)
+
+
 def make_report(
     spec: VocabSpec,
     selected: list[str],
@@ -578,9 +593,15 @@ def make_report(
     with a previous release, its fields ``carried_names``, ``lost_names`` and
     (when topics of it were deprecated) ``release_deprecations``, counted as well."""
     topics = ident.topics
+    shown = display_languages(spec)
     dropped_topics = sorted(
         (
-            {"id": tid, "reason": reason, "source": topics[tid].source}
+            {
+                "id": tid,
+                "label": _label_to_show(topics[tid], shown),  # a person reads labels
+                "reason": reason,
+                "source": topics[tid].source,
+            }
             for tid, reason in dropped.items()
         ),
         key=lambda d: d["id"],
