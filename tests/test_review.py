@@ -78,8 +78,13 @@ def test_release_page_is_self_contained_and_complete(demo_workspace):
     assert manifest["content_sha256"] in page
     assert "<h1>tidewell 2.0.0</h1>" in page
     assert "Against <strong>1.0.0</strong>" in page
-    assert "deprecated seaweed-foraging, replaced by shore-foraging" in page
+    # each topic by its label beside its id
+    assert (
+        "deprecated seaweed foraging (seaweed-foraging), replaced by shore foraging "
+        "(shore-foraging)" in page
+    )
     assert "<code>netting</code>" in page  # an ambiguous key
+    assert 'data-topic="net-mending">net mending (net-mending)</a>' in page  # its topics
     assert "stop-topic" in page and "missing-language:en" in page  # dropped, with reasons
     assert "seaweed gathering" in page  # the stale curation edit
 

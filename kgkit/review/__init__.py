@@ -31,8 +31,10 @@ from pathlib import Path
 from kgkit.errors import ReviewError
 from kgkit.files import write_text_atomic
 from kgkit.inputs import read_json, shape_error
+from kgkit.release.diffing import display_languages_of
 from kgkit.vocab.folder import REPORT_SHAPE, read_topics
 from kgkit.vocab.model import TopicRecord
+from kgkit.wording import topic_text
 
 __all__ = ["Review", "ReviewError", "load_review", "render_page", "write_page"]
 
@@ -106,6 +108,7 @@ def _describe_changes(changes: list[dict]) -> list[str]:
             language=c.get("language"),
             before=c.get("before"),
             after=c.get("after"),
+            labels=c.get("labels") if isinstance(c.get("labels"), dict) else {},
         )
         out.append(describe(ch))
     return out
@@ -215,10 +218,12 @@ def _stale_line(edit: object) -> str:
     return text
 
 
-def _topic_link(tid: str | None) -> str:
+def _topic_link(tid: str | None, label: str | None = None) -> str:
+    """A link to a topic's card, showing its label beside its id when it is known."""
     if not tid:
         return ""
-    return f'<a href="#topic={_e(tid)}" class="tref" data-topic="{_e(tid)}">{_e(tid)}</a>'
+    text = topic_text(label, tid) if label else tid
+    return f'<a href="#topic={_e(tid)}" class="tref" data-topic="{_e(tid)}">{_e(text)}</a>'
 
 
 def _bar_chart(title: str, bars: list[tuple[str, float, str]], unit: str = "") -> str:
@@ -323,12 +328,19 @@ def render_page(review: Review) -> str:
     deprecated = [t for t in topics if not t.is_active]
     n_aliases = sum(len(v) for t in active for v in t.aliases.values())
     languages = sorted({lang for t in active for lang in t.labels})
+    shown_in = tuple(((report.get("spec") or {}).get("languages")) or ()) or tuple(
+        display_languages_of({t.id: t for t in topics})
+    )
+    label_of = {t.id: t.label(shown_in) for t in topics}
+
+    def link(tid: str | None) -> str:
+        return _topic_link(tid, label_of.get(tid) if tid else None)
 
     ambiguous = report.get("ambiguous") or []
     amb_rows = [
         [
             f"<code>{_e(a.get('key', ''))}</code>",
-            ", ".join(_topic_link(t) for t in a.get("topics") or []),
+            ", ".join(link(t) for t in a.get("topics") or []),
             _e(str(a.get("action", ""))),
         ]
         for a in ambiguous
@@ -339,7 +351,7 @@ def render_page(review: Review) -> str:
             _e(c.get("alias") or ""),
             _e(c.get("language") or "-"),
             _e(f"{c.get('zipf', 0):.2f}"),
-            ", ".join(_topic_link(t) for t in c.get("topics") or []),
+            ", ".join(link(t) for t in c.get("topics") or []),
             _e(", ".join(c.get("kinds") or [])),
         ]
         for c in common or []
@@ -347,7 +359,7 @@ def render_page(review: Review) -> str:
     dropped = report.get("dropped_topics") or []
     drop_rows = [
         [
-            _e(d.get("id") or ""),
+            _e(topic_text(d.get("label"), d.get("id") or "")),
             f'<span class="iri">{_e(d.get("source") or "")}</span>',
             _e(d.get("reason") or ""),
         ]
@@ -356,7 +368,7 @@ def render_page(review: Review) -> str:
     dropped_aliases = report.get("dropped_aliases") or []
     dalias_rows = [
         [
-            _topic_link(d.get("topic")),
+            link(d.get("topic")),
             _e(d.get("alias") or ""),
             _e(d.get("language") or "-"),
             _e(d.get("reason") or ""),
@@ -369,9 +381,9 @@ def render_page(review: Review) -> str:
         edge = " → ".join(c.get("broken_edge") or [])
         repairs.append(["cycle broken", _e(members), _e(f"removed link {edge}")])
     for child, parent in report.get("reductions") or []:
-        repairs.append(["redundant parent", _topic_link(child), _e(f"removed link to {parent}")])
+        repairs.append(["redundant parent", link(child), _e(f"removed link to {parent}")])
     for r in report.get("new_roots") or []:
-        repairs.append(["new root", _topic_link(r if isinstance(r, str) else str(r)), ""])
+        repairs.append(["new root", link(r if isinstance(r, str) else str(r)), ""])
     for r in report.get("reattached") or []:
         text = r if isinstance(r, str) else json.dumps(r, ensure_ascii=False, sort_keys=True)
         repairs.append(["reattached", _e(text), ""])
@@ -397,7 +409,10 @@ def render_page(review: Review) -> str:
                 [
                     _tagged("lvl", f.get("level", "")),
                     f'<span title="{_e(f.get("summary", ""))}">{_e(f.get("check", ""))}</span>',
-                    _e(", ".join(s.rsplit("/", 1)[-1] for s in f.get("subjects") or [])),
+                    ", ".join(
+                        link(short) if short in label_of else _e(short)
+                        for short in (x.rsplit("/", 1)[-1] for x in f.get("subjects") or [])
+                    ),
                     _e(f.get("message", "")),
                 ]
                 for f in findings
@@ -439,7 +454,7 @@ def render_page(review: Review) -> str:
             rows.append(
                 [
                     _tagged("kind", c.get("kind", "")),
-                    _topic_link(c.get("topic")),
+                    link(c.get("topic")),
                     _e(text),
                     _e(c.get("cause", "")),
                 ]
@@ -512,7 +527,7 @@ def render_page(review: Review) -> str:
                 "dropped",
                 "Dropped topics",
                 len(dropped),
-                _table(["id", "source", "reason"], drop_rows, "no topic was dropped."),
+                _table(["topic", "source", "reason"], drop_rows, "no topic was dropped."),
             ),
             _section(
                 "dropped-aliases",
