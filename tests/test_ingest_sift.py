@@ -205,3 +205,67 @@ def test_sifting_skips_in_a_clean_chunk(monkeypatch):
     a, b = _slice_both_ways(monkeypatch, data, "nt", sl)
     assert (a.text, a.read, a.filtered, a.kept) == (b.text, b.read, b.filtered, b.kept)
     assert a.read == 700 and a.kept == 100
+
+
+# characters around those the writer escapes (controls, DEL, U+FFFE, U+FFFF) and others
+_TEXT_POOL = ["a", " ", "é", "中", "\U0001f600", "\ufffe", "\uffff", "\ufffd", "\x7f", "\x1f",
+              "\u2028", "\u0085", "'", "<", ">", "#", "@", "^"]  # fmt: skip
+
+
+def test_lines_copied_as_they_are_are_what_the_writer_writes():
+    # a line keep_canonical copies must be byte for byte what parsing it and writing the
+    # triple back gives (pyoxigraph's N-Triples writer): seeded generated lines
+    from kgkit.ingest.sift import keep_canonical
+
+    rng = random.Random(7)
+    seeds = _seed_lines()
+    copied = 0
+    for _ in range(20_000):
+        if rng.random() < 0.5:
+            line = _mutate(rng, rng.choice(seeds))
+        else:
+            text = "".join(rng.choice(_TEXT_POOL) for _ in range(rng.randint(0, 6)))
+            tag = rng.choice(["", "@en", "@EN", "@de-ch", "@zh-hant-tw", "@x"])
+            dt = rng.choice(["", "", "^^<http://www.w3.org/2001/XMLSchema#string>",
+                             "^^<http://www.w3.org/2001/XMLSchema#integer>"])  # fmt: skip
+            obj = f'"{text}"{tag or dt}'
+            line = f"<http://a.example/s> <http://a.example/p> {obj} .".encode()
+        data = line + b"\n"
+        # as in a slice: only lines of a chunk the sift vouched for (valid UTF-8, the subset)
+        if sift_chunk(data, "nt", frozenset()) is None:
+            continue
+        got = keep_canonical(data, Slice())
+        if got is None:
+            continue
+        copied += 1
+        q = next(ox.parse(input=data, format=ox.RdfFormat.N_TRIPLES))
+        assert got[0] == f"{q.subject} {q.predicate} {q.object} .\n".encode(), line
+    assert copied > 2000
+
+
+def test_copied_lines_pass_the_language_and_subject_tests_as_parsed_ones(monkeypatch):
+    lines = []
+    for i in range(300):
+        lang = ("en", "de", "fr", "en-gb")[i % 4]
+        lines.append(f'<http://a.example/e/{i % 50}> <http://a.example/l> "n {i}"@{lang} .\n')
+        lines.append(
+            f"<http://a.example/e/{i % 50}> <http://a.example/up> <http://a.example/e/{i // 7}> .\n"
+        )  # noqa: E501
+        lines.append(f'<http://a.example/e/{i}> <http://a.example/other> "{i}" .\n')
+    data = "".join(lines).encode()
+    preds = frozenset({"http://a.example/l", "http://a.example/up"})
+    subjects = frozenset(f"http://a.example/e/{i}" for i in range(0, 50, 3))
+    kept = []
+    for sl in (
+        Slice(predicates=preds),
+        Slice(predicates=preds, literal_languages=("en",)),
+        Slice(predicates=preds, literal_languages=("de", "fr"), subjects=subjects),
+    ):
+        a, b = _slice_both_ways(monkeypatch, data, "nt", sl)
+        assert (a.text, a.read, a.filtered, a.kept) == (b.text, b.read, b.filtered, b.kept)
+        assert a.read == 900
+        kept.append(a.kept)
+    # counted apart from kgkit: 300 labels (en, de, fr, en-gb in turn), 300 parent links
+    in_subjects = [i for i in range(300) if (i % 50) % 3 == 0]
+    third = len(in_subjects) + sum(1 for i in in_subjects if i % 4 in (1, 2))
+    assert kept == [600, 300 + 150, third]

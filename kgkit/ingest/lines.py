@@ -26,7 +26,7 @@ import pyoxigraph as ox
 
 from kgkit.ingest.formats import RDF_FORMATS
 from kgkit.ingest.records import RecordError, _Terms, parse_record_line
-from kgkit.ingest.sift import sift_chunk
+from kgkit.ingest.sift import keep_canonical, sift_chunk
 from kgkit.ingest.slicing import Slice
 from kgkit.workspace import Workspace
 
@@ -400,6 +400,12 @@ def process_chunk(
         res.read += sifted.skipped
         res.filtered += sifted.skipped
         data = sifted.kept
+        copied = keep_canonical(data, sl)
+        if copied is not None:  # already written as the writer would: no parsing needed
+            res.text, res.kept, dropped = copied
+            res.read += res.kept + dropped
+            res.filtered += dropped
+            return res
     kept_text: list[str] = []
     blank: list = []
     keeps = None if sl.is_everything else sl.keeps

@@ -30,6 +30,12 @@ kept, their order and the rejected lines are exactly those of parsing everything
 Which lines can matter: those whose second term is one of the kept predicates, found by
 searching the chunk for the predicates' IRIs (Aho-Corasick) and checking that the match
 stands in the predicate's place on its line.
+
+Those lines are parsed, unless they are all already written the way the parser would write
+them back (:func:`keep_canonical`: one space between terms, no comment, no escape, a
+lower-case language tag, no blank node, ...): then the slice's remaining tests (language of
+a literal, subject) are read off the bytes and the kept lines are copied as they are, which
+gives the same bytes as parsing and writing them.
 """
 
 from __future__ import annotations
@@ -40,7 +46,7 @@ from functools import lru_cache
 import ahocorasick_rs
 import re2
 
-__all__ = ["Sifted", "sift_chunk", "line_pattern"]
+__all__ = ["Sifted", "keep_canonical", "line_pattern", "sift_chunk"]
 
 # -- the strict subset, as one regular expression ------------------------------------
 
@@ -92,6 +98,57 @@ def _chunk_regex(quads: bool):
 def _predicate_finder(predicates: frozenset[str]):
     pats = sorted(f"<{p}>".encode() for p in predicates if p.isascii())
     return ahocorasick_rs.BytesAhoCorasick(pats) if pats else None
+
+
+# -- lines already written as the parser writes them back -----------------------------
+
+_CANON_LANG = (
+    "@[a-z]{2,3}(?:-[a-z]{4})?(?:-(?:[a-z]{2}|[0-9]{3}))?(?:-(?:[a-z0-9]{5,8}|[0-9][a-z0-9]{3}))*"
+)
+# no escapes at all, and none of the characters the writer escapes (controls, DEL; U+FFFE
+# and U+FFFF are refused apart, below)
+_CANON_LITERAL = f'"[^"\\\\\\x00-\\x1f\\x7f]*"(?:{_CANON_LANG}|\\^\\^{_IRI})?'
+_CANON_LINE = f"{_IRI} {_IRI} (?:{_IRI}|{_CANON_LITERAL}) \\."
+_WRITER_ESCAPES = (b"\xef\xbf\xbe", b"\xef\xbf\xbf", b"^^<http://www.w3.org/2001/XMLSchema#string>")
+
+
+@lru_cache(maxsize=1)
+def _canonical_regex():
+    options = re2.Options()
+    options.encoding = re2.Options.Encoding.LATIN1
+    options.max_mem = 256 << 20
+    return re2.compile(f"(?:{_CANON_LINE}\\n)*(?:{_CANON_LINE})?".encode("latin-1"), options)
+
+
+def keep_canonical(kept: bytes, slice) -> tuple[bytes, int, int] | None:
+    """The lines of ``kept`` (sifted lines of N-Triples) that ``slice`` keeps, decided on
+    their bytes: ``(lines kept, number kept, number filtered)``; None unless every line is
+    written exactly as pyoxigraph writes a triple back (then copying it is writing it).
+
+    >>> sl = __import__("kgkit.ingest.slicing", fromlist=["Slice"]).Slice(
+    ...     literal_languages=("en",))
+    >>> keep_canonical(b'<http://a.example/x> <http://a.example/l> "x"@en .\\n'
+    ...                b'<http://a.example/x> <http://a.example/l> "x"@de .\\n', sl)
+    (b'<http://a.example/x> <http://a.example/l> "x"@en .\\n', 1, 1)
+    >>> keep_canonical(b'<http://a.example/x>  <http://a.example/l> "x" .\\n', sl) is None
+    True
+    """
+    if any(x in kept for x in _WRITER_ESCAPES) or not _canonical_regex().fullmatch(kept):
+        return None
+    lines = kept.splitlines(keepends=True)
+    langs, subjects = slice.literal_languages, slice.subjects
+    if langs is None and subjects is None:
+        return kept, len(lines), 0
+    out = []
+    for line in lines:
+        if subjects is not None and line[1 : line.index(b">")].decode() not in subjects:
+            continue
+        if langs is not None:
+            at = line.rfind(b'"@')  # a literal of these lines holds no '"': its tag
+            if at > 0 and not slice.keeps_language(line[at + 2 : line.rindex(b" ")].decode()):
+                continue
+        out.append(line)
+    return b"".join(out), len(out), len(lines) - len(out)
 
 
 def _is_subset_chunk(data: bytes, quads: bool) -> bool:

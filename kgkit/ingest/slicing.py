@@ -45,6 +45,10 @@ class Slice:
                     return False
         return True
 
+    def keeps_language(self, tag: str) -> bool:
+        """Whether a literal with language tag ``tag`` passes the language test."""
+        return self.literal_languages is None or self._language_kept(tag)
+
     def _language_kept(self, tag: str) -> bool:
         # tags repeat: remember the answer (a few hundred tags at most in a real dump)
         cache = self.__dict__.setdefault("_tags", {})
