@@ -179,6 +179,12 @@ def parse_template(text: str, name: str, path: str = "", builtin: bool = False) 
                 if not ok:
                     raise TemplateError(f"{at}: default {default!r} does not fit kind {kind}")
             choices = tuple(c for c in (m.group("choices") or "").split(",") if c)
+            if default and not default.startswith("@"):
+                # a default that can never bind is the template's fault: say so at load
+                if choices and default not in choices:
+                    raise TemplateError(f"{at}: default {default!r} is not one of its choices")
+                if kind == "integer":
+                    parse_int(default, f"{at}: default", error=TemplateError)
             params.append(
                 Param(
                     name=m.group("name"),

@@ -585,3 +585,20 @@ def test_init_with_a_bad_language_writes_nothing(runner, tmp_path, languages):
     r = runner.invoke(cli, ["init", str(tmp_path / "w"), "--languages", languages])
     assert r.exit_code == 2 and "--languages: " in one_error_line(r)
     assert not (tmp_path / "w").exists()
+
+
+@pytest.mark.parametrize(
+    "header, cause",
+    [
+        ("#: param n integer = abc", "t.rq:1: default: must be an integer, got 'abc'"),
+        ("#: param n integer = " + HUGE, "t.rq:1: default: an integer of 5000 digits"),
+        ("#: param n literal = z one of a,b", "t.rq:1: default 'z' is not one of its choices"),
+    ],
+    ids=["integer-default-text", "integer-default-huge", "default-not-a-choice"],
+)
+def test_template_default_that_can_never_bind_is_refused_at_load(header, cause):
+    from kgkit.templates import parse_template
+
+    with pytest.raises(TemplateError) as err:
+        parse_template(header + "\nSELECT ?n WHERE { ?n ?p ?o }\n", "t", "t.rq")
+    assert str(err.value).startswith(cause)
