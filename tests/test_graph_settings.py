@@ -396,3 +396,58 @@ def test_graph_settings_read_the_same_over_an_endpoint(iso_ws, tmp_path):
     assert got == expected
     # source: ISO 3166-2 via pycountry (canton names, a label in graph "ch" only)
     assert {ln.label for ln in lines[1:]} == {s.name for s in _subdivisions("CH")}
+
+
+# ---------------------------------------------------------------------------
+# A release whose topics moved from one graph to another says so
+
+
+def _canton_triples(with_root: bool, with_cantons: bool):
+    out = []
+    if with_root:
+        out.append((ISO + "CH", SKOS + "prefLabel", ox.Literal("CH")))
+    if with_cantons:
+        for s in _subdivisions("CH"):
+            out.append((ISO + s.code, SKOS + "prefLabel", ox.Literal(s.name)))
+            out.append((ISO + s.code, SKOS + "broader", ox.NamedNode(ISO + "CH")))
+    return out
+
+
+def test_release_lists_topics_read_from_another_graph(tmp_path):
+    from kgkit.release.release import make_release
+
+    ws = init_workspace(tmp_path / "ws")
+
+    def load(name, triples):
+        path = tmp_path / f"{name}.nt"
+        _write_nt(path, triples)
+        import_files(ws, [str(path)], ImportOptions(graph=name))
+
+    def spec(graphs):
+        path = ws.vocab_dir / "cantons.yaml"
+        path.write_text(
+            "name: cantons\nnamespace: http://example.org/vocab/cantons/\n"
+            f"graphs: [{', '.join(graphs)}]\n"
+            f"select:\n  - template: descendants\n    params: {{root: '<{ISO}CH>'}}\n"
+            "    include_root: true\n",
+            encoding="utf-8",
+        )
+        return path
+
+    load("ch", _canton_triples(True, True))
+    first = make_release(ws, spec(["ch"]))
+    # the dump is split: the cantons now come in a graph of their own
+    load("ch", _canton_triples(True, False))
+    load("cantons", _canton_triples(False, True))
+    second = make_release(ws, spec(["ch", "cantons"]))
+
+    # source: ISO 3166-2 via pycountry: every Swiss canton, and nothing else changed
+    cantons = {s.code for s in _subdivisions("CH")}
+    assert first.version == "1.0.0" and second.level == "patch"
+    assert {(c.kind, c.topic, c.before, c.after) for c in second.diff.changes} == {
+        ("graph-changed", code, "ch", "cantons") for code in cantons
+    }
+    changelog = (second.path / "changelog.md").read_text(encoding="utf-8")
+    assert "## Read from another graph" in changelog
+    name = next(s.name for s in _subdivisions("CH") if s.code == "CH-BE")
+    assert f'graph of {name} (CH-BE): "ch" -> "cantons"' in changelog

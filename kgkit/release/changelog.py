@@ -19,6 +19,7 @@ _SECTIONS = (
     ("alias-added", "Aliases added"),
     ("alias-removed", "Aliases removed"),
     ("notation-changed", "Notations changed"),
+    ("graph-changed", "Read from another graph"),
     ("replacement-changed", "Replacements changed"),
 )
 
@@ -29,7 +30,7 @@ def _reason(level: str | None, previous: str | None, forced: bool) -> str:
     why = {
         "major": "a topic was removed or deprecated, or an id changed",
         "minor": "topics were added or parent links changed",
-        "patch": "only labels, aliases, notations or replacements changed",
+        "patch": "only labels, aliases, notations, graphs or replacements changed",
         None: "no topic changed",
     }[level]
     return f"{why}; version given explicitly" if forced else why

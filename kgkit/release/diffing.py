@@ -23,6 +23,8 @@ Change kinds (the version part each one bumps is in
 ``alias-added``       an alias appeared in one language
 ``alias-removed``     an alias went in one language
 ``notation-changed``  the notation changed
+``graph-changed``     the topic is read from another graph (``before``/``after``:
+                      graph names), as when a dump was split or renamed
 ``replacement-changed`` a deprecated topic points at another replacement
 ==================== =======================================================
 """
@@ -59,6 +61,7 @@ _KIND_ORDER = (
     "alias-added",
     "alias-removed",
     "notation-changed",
+    "graph-changed",
     "replacement-changed",
 )
 
@@ -187,6 +190,8 @@ def describe(c: Change) -> str:
         what = f"alias removed from {t}{lang}: {_show(c.before)}"
     elif c.kind == "notation-changed":
         what = f"notation of {t}: {_show(c.before)} -> {_show(c.after)}"
+    elif c.kind == "graph-changed":
+        what = f"graph of {t}: {_show(c.before)} -> {_show(c.after)}"
     else:
         what = f"replacement of {t}: {c.shown(c.before)} -> {c.shown(c.after)}"
     return f"{what}  ({c.cause})"
@@ -463,6 +468,12 @@ def diff_topics(
                     None,
                     a.notation,
                     b.notation,
+                )
+            )
+        if a.graph != b.graph and a.graph is not None and b.graph is not None:
+            changes.append(
+                Change(
+                    "graph-changed", ni, (ni,), cause("graph-changed", [ni]), None, a.graph, b.graph
                 )
             )
     changes.sort(key=Change.sort_key)

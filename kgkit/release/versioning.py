@@ -5,7 +5,7 @@ The rules (firm; docs/releases.md states them too):
 - the first release is ``1.0.0``;
 - a topic removed or deprecated, or an id changed -> next major;
 - otherwise a topic added (or brought back) or a parent link changed -> next minor;
-- otherwise labels, aliases, notations or replacements changed -> next patch;
+- otherwise labels, aliases, notations, graphs read or replacements changed -> next patch;
 - nothing changed -> no new version: :func:`next_version` raises, unless a version
   is given explicitly (it must still be greater than the previous one).
 
@@ -58,6 +58,7 @@ LEVEL_OF_KIND = {
     "alias-added": "patch",
     "alias-removed": "patch",
     "notation-changed": "patch",
+    "graph-changed": "patch",
     "replacement-changed": "patch",
 }
 _RANK = {"patch": 1, "minor": 2, "major": 3}
