@@ -45,6 +45,7 @@ import pyoxigraph as ox
 
 import kgkit
 from kgkit.errors import ArgumentError, NotFoundError, QueryError
+from kgkit.inputs import check_text
 from kgkit.store import (
     KG,
     PROVENANCE_GRAPH,
@@ -592,6 +593,7 @@ def run_query(
     clauses reach the network; ``allow_load`` lets an update's LOAD read a file or
     fetch a URL. An update must keep kgkit's records true (:func:`check_update`).
     """
+    check_text(sparql, "query", QueryError)  # text that is not UTF-8 cannot reach the store
     form = _check_guards(sparql, allow_update, allow_service, allow_load)
     return backend.execute(sparql, form, graphs)
 

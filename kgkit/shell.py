@@ -23,7 +23,8 @@ import shlex
 from collections.abc import Callable
 from pathlib import Path
 
-from kgkit.errors import KgkitError, ParameterError, error_lines
+from kgkit.errors import InputError, KgkitError, ParameterError, error_lines
+from kgkit.inputs import check_text
 from kgkit.query import FORMATS, Backend, run_query, tokenize, write_result
 from kgkit.templates import list_templates, run_template
 
@@ -117,6 +118,12 @@ class Shell:
                 if buf:
                     self.write("(unfinished statement dropped: end it with ;)\n")
                 return
+            try:
+                check_text(line, "this line", InputError)
+            except KgkitError as exc:  # what was typed so far is dropped with it
+                self.write("Error: " + "\n".join(self.describe(exc)) + "\n")
+                buf = []
+                continue
             if not buf and line.strip().startswith(":"):
                 self.remember(line.strip())
                 if self.command(line.strip()) is False:

@@ -602,3 +602,24 @@ def test_template_default_that_can_never_bind_is_refused_at_load(header, cause):
     with pytest.raises(TemplateError) as err:
         parse_template(header + "\nSELECT ?n WHERE { ?n ?p ?o }\n", "t", "t.rq")
     assert str(err.value).startswith(cause)
+
+
+def test_shell_line_that_is_not_utf8_is_one_error_and_the_shell_goes_on(workspace):
+    from kgkit.query import connect
+    from kgkit.shell import Shell
+
+    lines = iter(["SELECT * WHERE { ?s ?p 'caf\udce9' };", "ASK {};"])
+    out: list[str] = []
+    with connect(workspace) as backend:
+        Shell(backend, lambda prompt: next(lines, None), out.append).loop()
+    text = "".join(out)
+    assert "Error: this line: not UTF-8 text (byte \\xe9 at position 28)\n" in text
+    assert text.endswith("true\n")
+
+
+def test_query_text_that_is_not_utf8_is_a_query_error(workspace):
+    from kgkit.errors import QueryError
+    from kgkit.query import connect, run_query
+
+    with connect(workspace) as backend, pytest.raises(QueryError, match="query: not UTF-8"):
+        run_query(backend, "ASK { ?s ?p '\udcff' }")
