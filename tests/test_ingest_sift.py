@@ -269,3 +269,16 @@ def test_copied_lines_pass_the_language_and_subject_tests_as_parsed_ones(monkeyp
     in_subjects = [i for i in range(300) if (i % 50) % 3 == 0]
     third = len(in_subjects) + sum(1 for i in in_subjects if i % 4 in (1, 2))
     assert kept == [600, 300 + 150, third]
+
+
+def test_a_last_line_without_its_end_is_written_with_it(monkeypatch):
+    data = (
+        b'<http://a.example/e/1> <http://a.example/l> "one"@en .\n'
+        b'<http://a.example/e/2> <http://a.example/other> "x" .\n'
+        b'<http://a.example/e/2> <http://a.example/l> "two"@en .'
+    )
+    for extra in (b"", b'<http://a.example/e/3> <http://a.example/l> "q\\"uote"@en .\n'):
+        sl = Slice(predicates=frozenset({"http://a.example/l"}))
+        a, b = _slice_both_ways(monkeypatch, extra + data, "nt", sl)
+        assert a.text == b.text and a.text.endswith(b'"two"@en .\n')
+        assert (a.read, a.filtered, a.kept) == (b.read, b.filtered, b.kept)

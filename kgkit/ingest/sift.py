@@ -44,6 +44,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import ahocorasick_rs
+import pyoxigraph as ox
 import re2
 
 __all__ = ["Sifted", "keep_canonical", "line_pattern", "sift_chunk"]
@@ -121,26 +122,50 @@ def _canonical_regex():
 
 
 def keep_canonical(kept: bytes, slice) -> tuple[bytes, int, int] | None:
-    """The lines of ``kept`` (sifted lines of N-Triples) that ``slice`` keeps, decided on
-    their bytes: ``(lines kept, number kept, number filtered)``; None unless every line is
-    written exactly as pyoxigraph writes a triple back (then copying it is writing it).
+    """The lines of ``kept`` (the lines of a chunk :func:`sift_chunk` vouched for) that
+    ``slice`` keeps, as N-Triples: ``(text, number kept, number filtered)``.
+
+    A line without a backslash must be written exactly as pyoxigraph writes a triple back:
+    it is then copied, its language and subject tests read off its bytes. Lines with an
+    escape are parsed (a few per chunk in a real dump: escaped quotes in descriptions).
+    None when the lines cannot be handled this way (a line written otherwise, a blank node
+    among the parsed ones): the caller then parses them all.
 
     >>> sl = __import__("kgkit.ingest.slicing", fromlist=["Slice"]).Slice(
     ...     literal_languages=("en",))
     >>> keep_canonical(b'<http://a.example/x> <http://a.example/l> "x"@en .\\n'
-    ...                b'<http://a.example/x> <http://a.example/l> "x"@de .\\n', sl)
-    (b'<http://a.example/x> <http://a.example/l> "x"@en .\\n', 1, 1)
+    ...                b'<http://a.example/x> <http://a.example/l> "x"@de .\\n'
+    ...                b'<http://a.example/x> <http://a.example/l> "\\\\u0079"@EN .\\n', sl)
+    (b'<http://a.example/x> <http://a.example/l> "x"@en .\\n<http://a.example/x> <http://a.example/l> "y"@en .\\n', 2, 1)
     >>> keep_canonical(b'<http://a.example/x>  <http://a.example/l> "x" .\\n', sl) is None
     True
-    """
-    if any(x in kept for x in _WRITER_ESCAPES) or not _canonical_regex().fullmatch(kept):
-        return None
+    """  # noqa: E501
     lines = kept.splitlines(keepends=True)
+    escaped = [i for i, line in enumerate(lines) if b"\\" in line] if b"\\" in kept else []
+    if lines and not lines[-1].endswith(b"\n"):  # the file's last line: written with its end
+        lines[-1] += b"\n"
+        kept += b"\n"
+    skip = set(escaped)
+    plain = b"".join(x for i, x in enumerate(lines) if i not in skip) if escaped else kept
+    if any(x in plain for x in _WRITER_ESCAPES) or not _canonical_regex().fullmatch(plain):
+        return None
+    parsed: dict[int, bytes | None] = {}
+    if escaped:
+        odd = b"".join(lines[i] for i in escaped)
+        if b"_:" in odd:
+            return None
+        for i, q in zip(escaped, ox.parse(input=odd, format=ox.RdfFormat.N_TRIPLES), strict=True):
+            keep = slice.keeps(q)
+            parsed[i] = f"{q.subject} {q.predicate} {q.object} .\n".encode() if keep else None
     langs, subjects = slice.literal_languages, slice.subjects
-    if langs is None and subjects is None:
+    if not parsed and langs is None and subjects is None:
         return kept, len(lines), 0
     out = []
-    for line in lines:
+    for i, line in enumerate(lines):
+        if i in parsed:
+            if parsed[i] is not None:
+                out.append(parsed[i])
+            continue
         if subjects is not None and line[1 : line.index(b">")].decode() not in subjects:
             continue
         if langs is not None:
