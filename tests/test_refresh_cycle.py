@@ -141,20 +141,47 @@ def names_not_followed(old: Path, new: Path) -> list[str]:
 # --- running the cycle ---------------------------------------------------------------
 
 
+@pytest.fixture(scope="module")
+def released_1(tmp_path_factory) -> Path:
+    """A workspace holding release 1.0.0 of the Kilnmoor archive, made once per module
+    through the command line (import, then release); each test works on a copy."""
+    from click.testing import CliRunner
+
+    from kgkit.cli import cli
+    from kgkit.workspace import init_workspace
+
+    ws = init_workspace(tmp_path_factory.mktemp("refresh") / "ws")
+    for name in ("crafts.yaml", "crafts.curation.yaml"):
+        shutil.copy(RELEASE_1 / name, ws.vocab_dir / name)
+    runner = CliRunner()
+    for args in (
+        ["import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor"],
+        ["release", str(ws.vocab_dir / "crafts.yaml")],
+    ):
+        r = runner.invoke(cli, ["--workspace", str(ws.root), *args])
+        assert r.exit_code == 0, r.output
+    assert (ws.vocab_dir / "crafts" / "1.0.0" / "manifest.json").is_file()
+    return ws.root
+
+
+@pytest.fixture
+def workspace(released_1, tmp_path):
+    """This module's workspace: a copy of the one holding release 1 (store closed)."""
+    from kgkit.workspace import load_workspace
+
+    root = tmp_path / "ws"
+    shutil.copytree(released_1, root, symlinks=True)
+    return load_workspace(root)
+
+
 @pytest.fixture
 def cycle(kgkit, workspace):
-    """Release 1 of the Kilnmoor archive; returns ``refresh(case)`` that imports the
-    case's refreshed dump into the same graph (and its curation file, when it has one)
+    """Release 1 of the Kilnmoor archive is there; returns ``refresh(case)`` that imports
+    the case's refreshed dump into the same graph (and its curation file, when it has one)
     and releases again. Both steps through the command line, as an owner runs them."""
     spec = workspace.vocab_dir / "crafts.yaml"
-    for name in ("crafts.yaml", "crafts.curation.yaml"):
-        shutil.copy(RELEASE_1 / name, workspace.vocab_dir / name)
-    r = kgkit("import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor")
-    assert r.exit_code == 0, r.output
-    r = kgkit("release", str(spec))
-    assert r.exit_code == 0, r.output
     home = workspace.vocab_dir / "crafts"
-    assert (home / "1.0.0" / "manifest.json").is_file()
+    assert sorted(p.name for p in home.iterdir()) == ["1.0.0", "build"]
 
     def refresh(case: str, dump: Path | None = None):
         folder = DATA / case
