@@ -184,22 +184,37 @@ def _exact_label_matches(backend: Backend, text: str, graphs: list[str] | None =
     if not preds:
         return []
     plist = ", ".join(str(ox.NamedNode(p)) for p in preds)
+    per_graph = _per_graph(backend)
+    # with graph settings, a predicate names a label only in the graphs that map it so
+    pattern = "?item ?p ?l" if per_graph is None else "GRAPH ?g { ?item ?p ?l }"
+    select = "?item" if per_graph is None else "?item ?p ?g"
+
+    def items(q: str) -> list[str]:
+        rows = run_query(backend, q, graphs=graphs).rows
+        if per_graph is None:
+            return sorted({r[0].value for r in rows})
+        return sorted(
+            {
+                r[0].value
+                for r in rows
+                if r[1].value in per_graph.get(r[2].value, (ws.profile,))[0]["label"]
+            }
+        )
+
     # fast: exact literals in the workspace languages and untagged, found through the index
     forms = [ox.Literal(text)] + [ox.Literal(text, language=lang) for lang in ws.config.languages]
     values = " ".join(str(f) for f in forms)
-    q = (
-        f"SELECT DISTINCT ?item WHERE {{ VALUES ?l {{ {values} }} ?item ?p ?l . "
+    found = items(
+        f"SELECT DISTINCT {select} WHERE {{ VALUES ?l {{ {values} }} {pattern} . "
         f"FILTER(?p IN ({plist})) }}"
     )
-    found = sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
     if found:
         return found
     # then any language, by a scan
-    q = (
-        f"SELECT DISTINCT ?item WHERE {{ ?item ?p ?l . FILTER(?p IN ({plist})) "
+    return items(
+        f"SELECT DISTINCT {select} WHERE {{ {pattern} . FILTER(?p IN ({plist})) "
         f"FILTER(isLiteral(?l) && STR(?l) = {ox.Literal(text)}) }}"
     )
-    return sorted(r[0].value for r in run_query(backend, q, graphs=graphs).rows)
 
 
 def _code_matches(backend: Backend, text: str, graphs: list[str] | None = None) -> list[str]:

@@ -451,3 +451,21 @@ def test_release_lists_topics_read_from_another_graph(tmp_path):
     assert "## Read from another graph" in changelog
     name = next(s.name for s in _subdivisions("CH") if s.code == "CH-BE")
     assert f'graph of {name} (CH-BE): "ch" -> "cantons"' in changelog
+
+
+def test_show_by_label_reads_each_graphs_own_label_predicates(iso_ws):
+    def show(term):
+        return CliRunner().invoke(cli, ["--workspace", str(iso_ws.root), "show", term])
+
+    # source: ISO 3166-2 via pycountry: a canton's name is a label (ex:isoName, graph "ch")
+    canton = _subdivisions("CH")[0]
+    out = show(canton.name)
+    assert out.exit_code == 0, out.output
+    assert out.output.startswith(f"<{ISO}{canton.code}>")
+    # an Austrian state's ex:isoName (its code) is no label in graph "at"
+    state = _subdivisions("AT")[0]
+    out = show(state.code)
+    assert out.exit_code == 1
+    assert out.output == (
+        f"Error: no entity is labelled or coded {state.code!r}; try `kgkit find {state.code}`\n"
+    )
