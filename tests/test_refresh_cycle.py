@@ -363,3 +363,16 @@ def test_names_carried_once_are_not_listed_again_in_the_next_changelog(cycle, kg
     ]
     assert names_not_followed(r2, r3) == []
     assert section(md, "Names carried to a replacement") == []
+
+
+def test_demo_refresh_keeps_every_name_or_lists_it(demo_workspace):
+    """The bundled demo's own refresh (1.0.0 -> 2.0.0: a redirect, a relabelled topic, an
+    alias removed by curation) holds the same invariant, read from its release folders."""
+    first, second = demo_workspace["releases"]
+    assert names_not_followed(first, second) == []
+    t = topics(second)
+    assert t["seaweed-foraging"]["replaced_by"] == "shore-foraging"
+    assert (
+        keys_by_topic(lexicon(first))["seaweed-foraging"]
+        <= keys_by_topic(lexicon(second))["shore-foraging"]
+    )
