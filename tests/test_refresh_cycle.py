@@ -376,3 +376,60 @@ def test_demo_refresh_keeps_every_name_or_lists_it(demo_workspace):
         keys_by_topic(lexicon(first))["seaweed-foraging"]
         <= keys_by_topic(lexicon(second))["shore-foraging"]
     )
+
+
+def test_redirect_to_an_entity_outside_the_vocabulary_lists_the_names_lost(cycle):
+    """The refreshed dump redirects raku firing to an entity the selection does not hold:
+    there is no topic to hand the names to, so every one is listed as no longer matched."""
+    r1, r2, _ = cycle("refresh-redirect-out-of-vocabulary")
+    assert names_not_followed(r1, r2) == []
+    t = topics(r2)
+    assert (t["raku-firing"]["status"], t["raku-firing"]["replaced_by"]) == ("deprecated", None)
+    assert "firing-techniques" not in t
+    lost = section(changelog(r2), "Names no longer matched")
+    for name in ("raku firing", "Rakubrand", "raku", "raku glazing"):
+        assert any(
+            ln.startswith(f'- "{name}" [') and "was a name of raku firing (raku-firing): " in ln
+            for ln in lost
+        ), (name, lost)
+
+
+def test_second_redirect_hands_the_names_on_to_the_newest_target(cycle, kgkit, workspace):
+    """Release 3 follows a second refresh that redirects release 2's target on: the names
+    raku firing handed to raku kiln firing, and raku kiln firing's own, end on raku ware."""
+    r1, r2, _ = cycle("refresh-redirect")
+    r = kgkit(
+        "import", str(DATA / "refresh-redirect-twice" / "kilnmoor-3.nt"), "--graph", "kilnmoor"
+    )
+    assert r.exit_code == 0, r.output
+    r = kgkit("release", str(workspace.vocab_dir / "crafts.yaml"))
+    assert r.exit_code == 0, r.output
+    r3 = r2.parent / "3.0.0"
+    assert names_not_followed(r2, r3) == []
+    assert names_not_followed(r1, r3) == []  # across two refreshes at once
+    t = topics(r3)
+    assert follow("raku-firing", t) == follow("raku-kiln-firing", t) == "raku-ware"
+    assert keys_by_topic(lexicon(r1))["raku-firing"] <= keys_by_topic(lexicon(r3))["raku-ware"]
+    assert section(changelog(r3), "Deprecated") == [
+        "- deprecated raku kiln firing (raku-kiln-firing), replaced by raku ware (raku-ware)"
+        "  (graph)"
+    ]
+
+
+def test_deleted_topic_back_in_the_next_dump_is_restored_with_its_names(cycle, kgkit, workspace):
+    r1, r2, _ = cycle("refresh-deleted-without-replacement")
+    r = kgkit("import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor")
+    assert r.exit_code == 0, r.output
+    r = kgkit("release", str(workspace.vocab_dir / "crafts.yaml"))
+    assert r.exit_code == 0, r.output
+    [r3] = [p for p in r2.parent.iterdir() if p.name not in ("1.0.0", "2.0.0", "build")]
+    t = topics(r3)
+    assert (t["spoon-carving"]["status"], t["spoon-carving"]["replaced_by"]) == ("active", None)
+    # every name it had in release 1 matches it again, the curated alias included
+    assert (
+        keys_by_topic(lexicon(r1))["spoon-carving"] == keys_by_topic(lexicon(r3))["spoon-carving"]
+    )
+    assert section(changelog(r3), "Restored") == [
+        "- restored spoon carving (spoon-carving)  (graph)"
+    ]
+    assert names_not_followed(r1, r3) == [] and names_not_followed(r2, r3) == []
