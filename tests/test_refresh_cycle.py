@@ -433,3 +433,22 @@ def test_deleted_topic_back_in_the_next_dump_is_restored_with_its_names(cycle, k
         "- restored spoon carving (spoon-carving)  (graph)"
     ]
     assert names_not_followed(r1, r3) == [] and names_not_followed(r2, r3) == []
+
+
+def test_clash_suffix_going_away_gives_the_names_back_to_the_plain_id(cycle, kgkit, workspace):
+    """The clashing entity leaves again in the next dump: the id loses its suffix, the
+    suffixed id is deprecated in favour of the plain one, and no name is lost on the way."""
+    r1, r2, _ = cycle("refresh-id-change")
+    [suffixed] = [i for i, x in topics(r2).items() if i.startswith("weaving-") and
+                  x["source"] == K + "weaving"]  # fmt: skip
+    r = kgkit("import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor")
+    assert r.exit_code == 0, r.output
+    r = kgkit("release", str(workspace.vocab_dir / "crafts.yaml"))
+    assert r.exit_code == 0, r.output
+    [r3] = [p for p in r2.parent.iterdir() if p.name not in ("1.0.0", "2.0.0", "build")]
+    t = topics(r3)
+    assert t["weaving"]["status"] == "active"
+    assert (t[suffixed]["status"], follow(suffixed, t)) == ("deprecated", "weaving")
+    assert keys_by_topic(lexicon(r1))["weaving"] <= keys_by_topic(lexicon(r3))["weaving"]
+    assert names_not_followed(r2, r3) == [] and names_not_followed(r1, r3) == []
+    assert t["tablet-weaving"]["parents"] == ["weaving"]
