@@ -25,12 +25,13 @@ Prints a table and writes bench/out/import_bench.json (bench/out is git-ignored)
 
 ``--refresh`` measures the refresh instead (issue 11): importing a dump into a graph that
 already holds it, against importing the same file into a new graph of a new store, at 0.4M
-and 4M statements (times ``--scale``), in ``--repeat`` alternating rounds (medians
-reported); a second refresh while the first one's replaced content still waits; then
-``kgkit reclaim`` of what the refreshes left. Targets: a refresh costs at most 1.3x the time
-and 1.2x the peak memory of the first import. Writes bench/out/refresh_bench.json.
+and 4M statements (times ``--scale``; ``--sizes`` picks), in ``--repeat`` alternating rounds
+(medians reported); with ``--second`` a second refresh while the first one's replaced
+content still waits; then ``kgkit reclaim`` of what the refreshes left. Targets: a refresh
+costs at most 1.3x the time and 1.2x the peak memory of the first import. Writes
+bench/out/refresh_bench-SIZE.json.
 
-    python bench/import_bench.py --refresh --repeat 3
+    python bench/import_bench.py --refresh --repeat 2 --second
 """
 
 from __future__ import annotations
@@ -124,9 +125,10 @@ def _measure(
     return res
 
 
-def _dump(name: str, triples: int, other_ratio: float) -> tuple[Path, dict]:
-    path = OUT / f"{name}.nt"
-    meta = OUT / f"{name}.json"
+def _dump(name: str, triples: int, other_ratio: float, where: Path = OUT) -> tuple[Path, dict]:
+    where.mkdir(parents=True, exist_ok=True)
+    path = where / f"{name}.nt"
+    meta = where / f"{name}.json"
     entities = entities_for_triples(triples, other_ratio)
     want = {"entities": entities, "other_ratio": other_ratio, "seed": 7}
     if path.is_file() and meta.is_file():
@@ -143,33 +145,35 @@ def _median(values: list[float]) -> float:
     return (v[(len(v) - 1) // 2] + v[len(v) // 2]) / 2
 
 
-def _refresh(scale: float, repeat: int, reclaim_up_to: int) -> int:
+def _refresh(args) -> int:
     """Refresh (import into the graph that holds the same file) against a first import.
 
     Each round, alternating: a first import into a new store ("new graph"); the same file
     imported into a store where it is already the graph's content, which the import
-    replaces ("refresh", the graph made beforehand, not counted); then, in that store, the
-    same again ("second refresh", with one replaced content still waiting for reclaim);
-    then ``kgkit reclaim`` of the two replaced contents (dumps up to ``reclaim_up_to``).
+    replaces ("refresh", the graph made beforehand, not counted); with ``--second``, the
+    same again ("second refresh", one replaced content still waiting for reclaim); in the
+    first round, ``kgkit reclaim`` of what the refreshes left (dumps up to
+    ``--reclaim-up-to`` statements).
     """
-    results = []
-    ratios = {}
-    for label, n in (("0.4M", 400_000), ("4M", 4_000_000)):
-        size = f"{n * scale / 1e6:g}M"
-        path, counts = _dump(f"synth-{size}", int(n * scale), 0.4)
+    sizes = {"0.4M": 400_000, "4M": 4_000_000}
+    for label in args.sizes:
+        n = sizes[label]
+        size = f"{n * args.scale / 1e6:g}M"
+        path, counts = _dump(f"synth-{size}", int(n * args.scale), 0.4, args.dumps)
         runs: dict[str, list[dict]] = {}
-        for _ in range(repeat):
+        for round_ in range(args.repeat):
             home = tempfile.mkdtemp(prefix="kgkit-refresh-", dir=OUT)
             ws = os.path.join(home, "ws")
             _measure("into", path, ["bench"], ws)  # the graph to refresh (not counted)
             runs.setdefault("new graph", []).append(_measure("into", path, ["bench"]))
             runs.setdefault("refresh", []).append(_measure("into", path, ["bench"], ws))
-            runs.setdefault("second refresh", []).append(_measure("into", path, ["bench"], ws))
-            if counts["triples"] <= reclaim_up_to:
-                runs.setdefault("reclaim of two replaced contents", []).append(
-                    _measure("reclaim", path, [], ws)
-                )
+            if args.second:
+                runs.setdefault("second refresh", []).append(_measure("into", path, ["bench"], ws))
+            if round_ == 0 and counts["triples"] <= args.reclaim_up_to:
+                runs["reclaim of what the refreshes left"] = [_measure("reclaim", path, [], ws)]
             shutil.rmtree(home, ignore_errors=True)
+            print(f"  {label} round {round_ + 1}: {runs}", file=sys.stderr, flush=True)
+        results = []
         for kind, rs in runs.items():
             results.append(
                 {
@@ -183,10 +187,12 @@ def _refresh(scale: float, repeat: int, reclaim_up_to: int) -> int:
                     "all_seconds": [round(r["seconds"], 2) for r in rs],
                 }
             )
-        by = {r["run"]: r for r in results if r["dump"] == label}
-        new = by["new graph"]
+        by = {r["run"]: r for r in results}
+        ratios = {}
         for kind in ("refresh", "second refresh"):
-            ref = by[kind]
+            if kind not in by:
+                continue
+            ref, new = by[kind], by["new graph"]
             ratios[f"{label}: {kind} time / new graph (target <= 1.3)"] = (
                 ref["seconds"] / new["seconds"]
             )
@@ -196,26 +202,25 @@ def _refresh(scale: float, repeat: int, reclaim_up_to: int) -> int:
             ratios[f"{label}: {kind} peak memory / new graph (target <= 1.2)"] = (
                 ref["peak_rss_mb"] / new["peak_rss_mb"]
             )
-        print(f"  {label}: done", file=sys.stderr, flush=True)
-    print()
-    print("| dump | statements | run | median s | runs (s) | CPU s | peak RSS MB | load avg |")
-    print("|---|---:|---|---:|---|---:|---:|---:|")
-    for r in results:
-        print(
-            f"| {r['dump']} | {r['triples']:,} | {r['run']} | {r['seconds']:.2f} | "
-            f"{', '.join(f'{x:.2f}' for x in r['all_seconds'])} | {r['cpu_seconds']:.1f} | "
-            f"{r['peak_rss_mb']:,.0f} | {r['load_average']:.1f} |"
+        print()
+        print("| dump | statements | run | median s | runs (s) | CPU s | peak RSS MB | load avg |")
+        print("|---|---:|---|---:|---|---:|---:|---:|")
+        for r in results:
+            print(
+                f"| {r['dump']} | {r['triples']:,} | {r['run']} | {r['seconds']:.2f} | "
+                f"{', '.join(f'{x:.2f}' for x in r['all_seconds'])} | {r['cpu_seconds']:.1f} | "
+                f"{r['peak_rss_mb']:,.0f} | {r['load_average']:.1f} |"
+            )
+        print()
+        print("| ratio | value | met |")
+        print("|---|---:|---|")
+        for name, value in ratios.items():
+            target = 1.3 if "<= 1.3" in name else 1.2 if "<= 1.2" in name else None
+            met = "-" if target is None else "yes" if value <= target else "no"
+            print(f"| {name} | {value:.2f} | {met} |", flush=True)
+        (OUT / f"refresh_bench-{label}.json").write_text(
+            json.dumps({"results": results, "ratios": ratios}, indent=2, sort_keys=True) + "\n"
         )
-    print()
-    print("| ratio | value | met |")
-    print("|---|---:|---|")
-    for name, value in ratios.items():
-        target = 1.3 if "target <= 1.3" in name else 1.2 if "target <= 1.2" in name else None
-        met = "-" if target is None else "yes" if value <= target else "no"
-        print(f"| {name} | {value:.2f} | {met} |")
-    (OUT / "refresh_bench.json").write_text(
-        json.dumps({"results": results, "ratios": ratios}, indent=2, sort_keys=True) + "\n"
-    )
     return 0
 
 
@@ -230,6 +235,15 @@ def main(argv: list[str] | None = None) -> int:
         "--refresh", action="store_true", help="measure refreshing a graph (0.4M and 4M)"
     )
     ap.add_argument(
+        "--sizes",
+        nargs="+",
+        choices=["0.4M", "4M"],
+        default=["0.4M", "4M"],
+        help="with --refresh: the dump sizes to measure",
+    )
+    ap.add_argument("--second", action="store_true", help="with --refresh: a second refresh too")
+    ap.add_argument("--dumps", type=Path, default=OUT, help="folder for the generated dumps")
+    ap.add_argument(
         "--reclaim-up-to",
         type=int,
         default=1_000_000,
@@ -242,7 +256,7 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     OUT.mkdir(exist_ok=True)
     if args.refresh:
-        return _refresh(args.scale, args.repeat, args.reclaim_up_to)
+        return _refresh(args)
     m = 1_000_000 * args.scale
     dumps = {
         "1M": _dump(f"synth-{m / 1e6:g}M", int(m), 0.4),
