@@ -291,3 +291,5 @@ def test_lint_of_text_in_memory_matches_lint_of_the_file(tmp_path):
     in_memory = lint_turtle(skos, str(tmp_path / "skos.ttl"))
     assert in_memory.findings == by_file.findings and by_file.errors
     assert {f.check for f in by_file.errors} >= {"hierarchy-loop", "blank-label"}
+    # the gates skip the warning checks: the same errors, nothing else
+    assert lint_turtle(skos, warnings=False).findings == by_file.errors
