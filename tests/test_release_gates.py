@@ -293,3 +293,10 @@ def test_lint_of_text_in_memory_matches_lint_of_the_file(tmp_path):
     assert {f.check for f in by_file.errors} >= {"hierarchy-loop", "blank-label"}
     # the gates skip the warning checks: the same errors, nothing else
     assert lint_turtle(skos, warnings=False).findings == by_file.errors
+
+
+def test_root_without_descendants_refuses_release_by_no_topics(workspace):
+    spec = setup(workspace, dump(TOPICS_1))
+    leaf = SPEC.replace(f"<{G}sport>", f"<{G}canoe-polo>").replace("include_root: true", "")
+    spec.write_text(leaf, encoding="utf-8")
+    assert _refused(workspace, spec) == ["no-topics: the vocabulary has no active topic"]
