@@ -78,7 +78,7 @@ def _peak_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def child_compile(ws_dir: str) -> dict:
+def child_compile(ws_dir: str, gates: bool = True) -> dict:
     from kgkit.vocab.compile import compile_vocabulary
     from kgkit.workspace import load_workspace
 
@@ -93,7 +93,7 @@ def child_compile(ws_dir: str) -> dict:
         last[:] = [now, step]
 
     t0, c0 = time.perf_counter(), _cpu()
-    res = compile_vocabulary(ws, ws.vocab_dir / "synth.yaml", progress=progress)
+    res = compile_vocabulary(ws, ws.vocab_dir / "synth.yaml", progress=progress, gates=gates)
     progress("done")
     return {
         "cpu": _cpu() - c0,
@@ -128,9 +128,10 @@ def child_baseline(ws_dir: str) -> dict:
     return out
 
 
-def _run_child(kind: str, ws_dir: Path) -> dict:
+def _run_child(kind: str, ws_dir: Path, gates: bool = True) -> dict:
     r = subprocess.run(
-        [sys.executable, __file__, "--child", kind, str(ws_dir)],
+        [sys.executable, __file__, "--child", kind, str(ws_dir)]
+        + ([] if gates else ["--without-gates"]),
         check=True,
         capture_output=True,
         text=True,
@@ -167,11 +168,20 @@ def main(argv: list[str] | None = None) -> int:
         "--repeat", type=int, default=2, help="runs of each, alternating; the best counts"
     )
     ap.add_argument("--keep", type=Path, help="keep (and reuse) the prepared workspaces here")
+    ap.add_argument(
+        "--without-gates",
+        action="store_true",
+        help="compile without the release gates (compile_vocabulary(gates=False))",
+    )
     ap.add_argument("--child", nargs=2, metavar=("KIND", "WORKSPACE"), help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     if args.child:
         kind, ws_dir = args.child
-        result = child_compile(ws_dir) if kind == "compile" else child_baseline(ws_dir)
+        result = (
+            child_compile(ws_dir, not args.without_gates)
+            if kind == "compile"
+            else child_baseline(ws_dir)
+        )
         print(json.dumps(result))
         return 0
 
@@ -190,7 +200,7 @@ def main(argv: list[str] | None = None) -> int:
             runs: dict[str, list[dict]] = {"baseline": [], "compile": []}
             for _ in range(args.repeat):
                 for kind in ("baseline", "compile"):
-                    runs[kind].append(_run_child(kind, ws_dir))
+                    runs[kind].append(_run_child(kind, ws_dir, not args.without_gates))
             best[n] = {k: min(v, key=lambda r: r["seconds"]) for k, v in runs.items()}
             cpu = {k: min(r["cpu"] for r in v) for k, v in runs.items()}
             comp, base = best[n]["compile"], best[n]["baseline"]
