@@ -11,7 +11,10 @@ file (and line, where there is one) and the cause:
 - :func:`load_json` / :func:`read_json`: the same limits for JSON.
 - :func:`check_text` (text that is not UTF-8, e.g. a command-line argument),
   :func:`parse_int` (an integer with bounds), :func:`check_number`.
-- :func:`file_error`: any ``OSError`` met reading or writing a path, as one line.
+- :func:`shape_error`: where parsed data first differs from the types its readers
+  expect (``report.json``, ``topics.jsonl``).
+- :func:`file_error` / :func:`describe_os_error`: any ``OSError`` met reading or writing
+  a path, as one line.
 
 Messages show control characters escaped (:func:`kgkit.errors.one_line`).
 
@@ -41,6 +44,7 @@ import yaml
 from kgkit.errors import ArgumentError, InputError, KgkitError, one_line
 
 __all__ = [
+    "ENVIRONMENT_ERRNOS",
     "MAX_INT_DIGITS",
     "MAX_JSON_DEPTH",
     "MAX_TEXT_BYTES",
@@ -48,15 +52,14 @@ __all__ = [
     "MAX_YAML_NODES",
     "YamlDocument",
     "check_number",
-    "ENVIRONMENT_ERRNOS",
     "check_text",
     "decode_text",
     "describe_os_error",
     "file_error",
-    "os_error_cause",
     "load_json",
     "load_yaml",
     "one_line",
+    "os_error_cause",
     "parse_int",
     "read_bytes_file",
     "read_json",
@@ -356,6 +359,7 @@ _STR = "tag:yaml.org,2002:str"
 _MERGE = "tag:yaml.org,2002:merge"
 _DEFAULT_TAGS = (None, "!", "tag:yaml.org,2002:seq", "tag:yaml.org,2002:map")
 _NO_KEY = object()
+_MERGE_KEY = object()  # stands for a "<<" key until its mapping ends
 
 
 def _resolve_plain(value: str) -> str:
@@ -496,9 +500,6 @@ def _build(loader, fail, max_depth: int, max_nodes: int):
             ev.start_mark.line + 1, f"more than {max_nodes} values once its aliases are expanded"
         )
     return (root[0] if root else None), lines
-
-
-_MERGE_KEY = object()
 
 
 def load_yaml(
