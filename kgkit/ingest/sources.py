@@ -28,6 +28,7 @@ from pathlib import Path
 from typing import BinaryIO
 
 from kgkit.errors import DamagedInputError, InputError, one_line
+from kgkit.inputs import file_error
 
 __all__ = [
     "COMPRESSION_SUFFIXES",
@@ -359,7 +360,7 @@ def open_source(name: str | os.PathLike, *, lone_cr: bool = False) -> Source:
         try:
             raw = open(path, "rb")  # noqa: SIM115 - closed by Source.close
         except OSError as exc:
-            raise InputError(f"{shown}: {_why(exc)}") from None
+            raise file_error(label, exc, "read") from None
         st = os.fstat(raw.fileno())
         if not (stat.S_ISREG(st.st_mode) or stat.S_ISFIFO(st.st_mode)):
             raw.close()
@@ -386,16 +387,6 @@ def _kind(mode: int) -> str:
     return "is not a regular file"
 
 
-def _why(exc: OSError) -> str:
-    if isinstance(exc, FileNotFoundError):
-        return "no such file"
-    if isinstance(exc, IsADirectoryError):
-        return "is a folder, not a file"
-    if isinstance(exc, PermissionError):
-        return "permission denied (cannot read it)"
-    return f"cannot open ({exc.strerror or exc.__class__.__name__})"
-
-
 def check_input(label: str) -> None:
     """Raise a one-line :class:`KgkitError` unless ``label`` names a readable input.
 
@@ -408,8 +399,8 @@ def check_input(label: str) -> None:
     try:
         st = os.stat(label)
     except OSError as exc:
-        raise InputError(f"{shown}: {_why(exc)}") from None
+        raise file_error(label, exc, "read") from None
     if not (stat.S_ISREG(st.st_mode) or stat.S_ISFIFO(st.st_mode)):
         raise InputError(f"{shown}: {_kind(st.st_mode)}, not a file")
     if not os.access(label, os.R_OK):
-        raise InputError(f"{shown}: permission denied (cannot read it)")
+        raise InputError(f"{shown}: cannot read (permission denied)")
