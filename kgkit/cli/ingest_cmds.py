@@ -59,7 +59,8 @@ def _slicing_options(scope_default: str):
         f = click.option(
             "--predicates",
             metavar="LIST",
-            help="Comma-separated predicates (CURIEs or <IRIs>) to keep, added to --scope.",
+            help="Comma-separated predicates (CURIEs or <IRIs>) to keep; with --scope "
+            "profile, kept besides the profile's.",
         )(f)
         return click.option(
             "--scope",
