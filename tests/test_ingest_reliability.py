@@ -155,6 +155,19 @@ def test_xz_stream_padding_is_accepted(workspace, tmp_path):
     assert s.loaded == 2000
 
 
+def test_zstd_skippable_frames_are_accepted(workspace, tmp_path):
+    # RFC 8878, 3.1.2: a skippable frame (magic 0x184D2A5?, a 4-byte size, that many bytes)
+    # may stand before, between or after the data frames; pzstd writes one first
+    import struct
+
+    skip = struct.pack("<II", 0x184D2A50, 4) + b"meta"
+    cut = NT.index(b"\n", len(NT) // 2) + 1
+    path = tmp_path / "skippable.nt.zst"
+    path.write_bytes(skip + COMPRESS["zst"](NT[:cut]) + skip + COMPRESS["zst"](NT[cut:]) + skip)
+    (s,) = import_files(workspace, [str(path)], ImportOptions(graph="g"))
+    assert s.loaded == 2000
+
+
 # item 2: --rejects replaced whatever it named by rename
 @pytest.mark.parametrize(
     "target, message",

@@ -44,6 +44,8 @@ _MAGIC = [
     (b"BZh", "bzip2"),
     (b"\xfd7zXZ\x00", "xz"),
     (b"\x28\xb5\x2f\xfd", "zstd"),
+    # zstd skippable frames (RFC 8878, 3.1.2), which may come first (pzstd writes one)
+    *((bytes([n]) + b"\x2a\x4d\x18", "zstd") for n in range(0x50, 0x60)),
 ]
 COMPRESSION_SUFFIXES = {".gz": "gzip", ".bz2": "bzip2", ".xz": "xz", ".zst": "zstd"}
 
@@ -169,7 +171,7 @@ class _Inflating(io.RawIOBase):
         self._raw = raw
         self._compression = compression
         self._label = label
-        self._magic = next(m for m, name in _MAGIC if name == compression)
+        self._magics = tuple(m for m, name in _MAGIC if name == compression)
         self._dec = _decompressor(compression)
         self._errors = _codec_errors()
         self._out = b""
@@ -184,7 +186,7 @@ class _Inflating(io.RawIOBase):
     def _next_stream(self) -> None:
         """After a stream's end: another stream, padding, the end of input, or damage."""
         rest = self._dec.unused
-        while len(rest) < len(self._magic):
+        while len(rest) < max(map(len, self._magics)):
             more = self._raw.read(1 << 16)
             if not more:
                 break
@@ -202,7 +204,7 @@ class _Inflating(io.RawIOBase):
                 raise self._damaged("stream padding is not a multiple of four bytes")
             self._done = True
             return
-        if not rest.startswith(self._magic):
+        if not rest.startswith(self._magics):
             raise self._damaged(
                 f"{len(rest)}{'+' if len(rest) >= 1 << 16 else ''} other bytes after the end "
                 "of the compressed data"
