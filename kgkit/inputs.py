@@ -442,9 +442,14 @@ def _build(loader, fail, max_depth: int, max_nodes: int):
                 construct = constructors.get(tag)
                 if construct is None or tag == _MERGE:
                     raise fail(ev.start_mark.line + 1, f"the tag {tag!r} is not supported")
-                value = construct(
-                    loader, yaml.ScalarNode(tag, ev.value, ev.start_mark, ev.end_mark, ev.style)
-                )
+                node = yaml.ScalarNode(tag, ev.value, ev.start_mark, ev.end_mark, ev.style)
+                try:
+                    value = construct(loader, node)
+                except (ValueError, TypeError, AttributeError, OverflowError):  # !!int abc...
+                    short = tag.rsplit(":", 1)[-1]
+                    raise fail(
+                        ev.start_mark.line + 1, f"{one_line(repr(ev.value))} is not a valid {short}"
+                    ) from None
             if ev.anchor:
                 anchors[ev.anchor], sizes[ev.anchor] = value, 1
             total += 1

@@ -623,3 +623,92 @@ def test_query_text_that_is_not_utf8_is_a_query_error(workspace):
 
     with connect(workspace) as backend, pytest.raises(QueryError, match="query: not UTF-8"):
         run_query(backend, "ASK { ?s ?p '\udcff' }")
+
+
+# --- a seeded fuzz over the YAML files kgkit reads ---------------------------------------
+
+_FUZZ_TOKENS = [
+    "\n",
+    " ",
+    "- ",
+    ": ",
+    "{",
+    "}",
+    "[",
+    "]",
+    "&a ",
+    "*a",
+    "<<: ",
+    "!!int ",
+    "!!float ",
+    "!!timestamp ",
+    "!!binary ",
+    "!!python/object ",
+    "'",
+    '"',
+    "#",
+    "\t",
+    "\x85",
+    "\u2028",
+    "~",
+    ".nan",
+    "9" * 50,
+    "-1",
+    "1.5",
+    "yes",
+    "2020-13-45",
+    "\udcff",
+    "\ufeff",
+    "? ",
+    "|",
+    ">",
+    "---\n",
+    "%YAML 1.1\n",
+    "!x ",
+    "\x00",
+    "é",
+]
+
+
+def test_mutated_workspace_spec_and_curation_files_never_give_a_traceback(workspace):
+    """300 seeded mutations of kgkit.yaml, the demo spec and a curation file: each one
+    loads or is refused with one KgkitError line, never another exception."""
+    import random
+    from importlib import resources
+
+    files = {
+        "kgkit.yaml": (workspace.root / "kgkit.yaml").read_text(encoding="utf-8"),
+        "spec": resources.files("kgkit.demo").joinpath("tidewell.yaml").read_text("utf-8"),
+        "curation": resources.files("kgkit.demo")
+        .joinpath("curation-start.yaml")
+        .read_text("utf-8"),
+    }
+    other = workspace.root / "other"
+    other.mkdir()
+    rng = random.Random(15)
+    for _ in range(300):
+        kind = rng.choice(sorted(files))
+        base = files[kind]
+        text = list(base)
+        for _ in range(rng.randint(1, 6)):
+            pos = rng.randrange(len(text) + 1)
+            op = rng.random()
+            if op < 0.5:
+                text.insert(pos, rng.choice(_FUZZ_TOKENS))
+            elif op < 0.8:
+                del text[pos : pos + rng.randint(1, 20)]
+            else:
+                text[pos:pos] = list(base[rng.randrange(len(base)) :][: rng.randint(1, 60)])
+        data = "".join(text).encode("utf-8", "surrogateescape")
+        try:
+            if kind == "kgkit.yaml":
+                (other / "kgkit.yaml").write_bytes(data)
+                load_workspace(other)
+            elif kind == "spec":
+                (workspace.vocab_dir / "t.yaml").write_bytes(data)
+                load_spec(workspace, workspace.vocab_dir / "t.yaml")
+            else:
+                (workspace.vocab_dir / "t.curation.yaml").write_bytes(data)
+                load_curation(workspace.vocab_dir / "t.curation.yaml")
+        except (WorkspaceError, SpecError) as exc:
+            assert "\n" not in str(exc), (kind, data[:200])
