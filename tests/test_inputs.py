@@ -712,3 +712,19 @@ def test_mutated_workspace_spec_and_curation_files_never_give_a_traceback(worksp
                 load_curation(workspace.vocab_dir / "t.curation.yaml")
         except (WorkspaceError, SpecError) as exc:
             assert "\n" not in str(exc), (kind, data[:200])
+
+
+@pytest.mark.parametrize(
+    "line",
+    [
+        '{"id": "a", "depth": ' + HUGE + "}",
+        '{"id": "a", "x": ' + "[" * 100_000 + "]" * 100_000 + "}",
+    ],
+    ids=["huge-int", "nested-100000"],
+)
+def test_topic_line_beyond_limits_is_one_line(line):
+    from kgkit.errors import BuildFileError
+    from kgkit.vocab.folder import parse_topics
+
+    with pytest.raises(BuildFileError, match=r"^t.jsonl:2: not a topic"):
+        parse_topics(['{"id": "z"}', line], "t.jsonl")

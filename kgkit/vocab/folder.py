@@ -71,6 +71,10 @@ def parse_topics(lines: Iterable[str], name: str = "topics.jsonl") -> dict[str, 
             t = loads(line)
         except json.JSONDecodeError as exc:
             raise BuildFileError(f"{name}:{n}: not a JSON object ({exc.msg})") from None
+        except (ValueError, RecursionError):  # over 4,300 digits; nested too deep
+            raise BuildFileError(
+                f"{name}:{n}: not a topic (a number too long or nesting too deep)"
+            ) from None
         if not isinstance(t, dict) or not isinstance(t.get("id"), str):
             raise BuildFileError(f"{name}:{n}: a topic needs a string 'id'")
         if t["id"] in out:
