@@ -5,6 +5,7 @@ from __future__ import annotations
 import gzip
 import json
 import lzma
+import os
 import subprocess
 import sys
 import textwrap
@@ -246,3 +247,19 @@ def test_import_jobs_accepts_every_option_and_prints_the_same_summary(kgkit, mon
     assert out["2"]["filtered"] == 4 and out["2"]["rejected"] == 5
     one, two = ((tmp_path / f"{j}.rejects.txt").read_text(encoding="utf-8") for j in "12")
     assert one == two
+
+
+def test_file_name_that_is_not_utf8_imports_and_shows_escaped(kgkit, tmp_path):
+    # issue 15 item 9: such a name crashed the provenance record; a name is a name
+    name = tmp_path / os.fsdecode(b"dump-\xff\xe2\x80\xa8.nt")
+    name.write_text(NT, encoding="utf-8")
+    r = kgkit("import", str(name), "--graph", "odd", "-q")
+    assert r.exit_code == 0, r.output
+    assert r.output.splitlines()[0].startswith("graph odd created from dump-\\xff\\u2028.nt in ")
+    bad = tmp_path / os.fsdecode(b"bad-\xfe.nt")
+    bad.write_bytes(b"<bad> .\n")
+    r = kgkit("import", str(bad), "--graph", "odd")
+    assert r.exit_code == 1
+    assert r.output.count("\n") == 1 and "bad-\\xfe.nt:1:1: " in r.output
+    r = kgkit("slice", str(bad), "-o", str(tmp_path / "out.nt"))
+    assert r.exit_code == 1 and "bad-\\xfe.nt:1:1: " in r.output

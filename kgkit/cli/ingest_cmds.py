@@ -113,7 +113,8 @@ def _jobs_option(what: str):
 
 
 @click.command("import")
-@click.argument("files", nargs=-1, required=True)
+# paths: a file name that is not UTF-8 is a name like any other (kept escaped in messages)
+@click.argument("files", nargs=-1, required=True, type=click.Path(allow_dash=True))
 @click.option("--graph", "-g", help="Graph to import into (default: from the file name).")
 @click.option(
     "--format",
@@ -250,7 +251,8 @@ def graphs_command(ctx, as_json):
 
 
 @click.command("slice")
-@click.argument("files", nargs=-1, required=True)
+# paths: a file name that is not UTF-8 is a name like any other (kept escaped in messages)
+@click.argument("files", nargs=-1, required=True, type=click.Path(allow_dash=True))
 @click.option(
     "--output",
     "-o",
