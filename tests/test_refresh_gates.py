@@ -35,17 +35,47 @@ def _snapshot(home: Path) -> dict[str, bytes]:
     }
 
 
+@pytest.fixture(scope="module")
+def released_1(tmp_path_factory) -> Path:
+    """A workspace holding release 1.0.0 of the Kilnmoor archive, made once per module
+    through the command line (import, then release); each test works on a copy."""
+    from click.testing import CliRunner
+
+    from kgkit.cli import cli
+    from kgkit.workspace import init_workspace
+
+    ws = init_workspace(tmp_path_factory.mktemp("gates") / "ws")
+    for name in ("crafts.yaml", "crafts.curation.yaml"):
+        shutil.copy(RELEASE_1 / name, ws.vocab_dir / name)
+    runner = CliRunner()
+    for args in (
+        ["import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor"],
+        ["release", str(ws.vocab_dir / "crafts.yaml")],
+    ):
+        r = runner.invoke(cli, ["--workspace", str(ws.root), *args])
+        assert r.exit_code == 0, r.output
+    return ws.root
+
+
+@pytest.fixture
+def workspace(released_1, tmp_path):
+    """This module's workspace: a copy of the one holding release 1 (store closed)."""
+    from kgkit.workspace import load_workspace
+
+    root = tmp_path / "ws"
+    shutil.copytree(released_1, root, symlinks=True)
+    return load_workspace(root)
+
+
 class Owner:
-    """The owner's workspace: the spec and curation file of release 1, the graph imported."""
+    """The owner's workspace: the spec and curation file of release 1, the graph imported,
+    release 1.0.0 made."""
 
     def __init__(self, kgkit, workspace):
         self.kgkit, self.ws = kgkit, workspace
         self.spec = workspace.vocab_dir / "crafts.yaml"
         self.curation = workspace.vocab_dir / "crafts.curation.yaml"
         self.home = workspace.vocab_dir / "crafts"
-        shutil.copy(RELEASE_1 / "crafts.yaml", self.spec)
-        shutil.copy(RELEASE_1 / "crafts.curation.yaml", self.curation)
-        self.load(RELEASE_1 / "kilnmoor-1.nt")
 
     def load(self, dump: Path) -> None:
         r = self.kgkit("import", str(dump), "--graph", "kilnmoor")
@@ -55,9 +85,13 @@ class Owner:
         return self.kgkit("release", str(self.spec), *args)
 
     def release_1(self) -> None:
-        r = self.release()
-        assert r.exit_code == 0, r.output
-        assert (self.home / "1.0.0" / "manifest.json").is_file()
+        """Release 1.0.0 is there and verifies."""
+        v = self.kgkit("verify", str(self.home / "1.0.0"))
+        assert v.exit_code == 0, v.output
+
+    def unreleased(self) -> None:
+        """Back to a vocabulary never released (the graph stays imported)."""
+        shutil.rmtree(self.home)
 
     def refused(self) -> list[str]:
         """Release, expect a refusal; returns the problem lines (without their indent)."""
@@ -124,6 +158,7 @@ def _edit(path: Path, old: str, new: str) -> None:
 
 
 def test_root_without_descendants_refuses_first_release_with_no_topics(owner):
+    owner.unreleased()
     # a leaf as root, without include_root: the selection is empty
     _edit(owner.spec, f"<{K}crafts>", f"<{K}spoon-carving>")
     _edit(owner.spec, "include_root: true", "include_root: false")
