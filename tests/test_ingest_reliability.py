@@ -428,6 +428,11 @@ def test_input_that_is_not_a_file_is_named_for_what_it_is(workspace, tmp_path, m
     make(path)
     with pytest.raises(KgkitError, match=f"in.nt: {message}"):
         import_files(workspace, [str(path)], ImportOptions(graph="g"))
+    # named for what it is before its format is asked (a folder has no extension to read)
+    folder = tmp_path / "dumps"
+    folder.mkdir()
+    with pytest.raises(KgkitError, match="dumps: is a folder, not a file"):
+        import_files(workspace, [str(folder)], ImportOptions(graph="g"))
 
 
 def test_device_as_input_is_named_a_device(workspace):

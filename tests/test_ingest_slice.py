@@ -121,8 +121,12 @@ def test_cli_slice_json(kgkit, tmp_path):
     r = kgkit("slice", str(MESSY), "-o", str(tmp_path / "t.nt"))
     assert r.exit_code == 1
     assert r.output.startswith(f"Error: {MESSY}:8:73: ")
-    r = kgkit("slice", str(DATA / "nothing.ttl"), "-o", str(tmp_path / "u.nt"))
+    turtle = tmp_path / "doc.ttl"
+    turtle.write_text("<http://a> <http://b> <http://c> .\n", encoding="utf-8")
+    r = kgkit("slice", str(turtle), "-o", str(tmp_path / "u.nt"))
     assert r.exit_code == 1 and "line-based formats" in r.output
+    r = kgkit("slice", str(DATA / "nothing.ttl"), "-o", str(tmp_path / "u.nt"))
+    assert r.exit_code == 1 and r.output.endswith("nothing.ttl: no such file\n")
 
 
 def test_slice_output_keeps_input_order_whatever_the_chunks(tmp_path, workspace, monkeypatch):

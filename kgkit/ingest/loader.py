@@ -398,7 +398,7 @@ class _Pending:
             run.load_quads(res.quads)
         if res.blank_text:
             self.wait()
-            run.load_quads(ox.parse(input=res.blank_text, format=ox.RdfFormat.N_TRIPLES))
+            run.load_quads(_lines.parse_statements(res.blank_text))
 
     def flush_raw(self) -> None:
         if self.raw:
@@ -508,6 +508,14 @@ def _load_document(run: _Run, source: Source, fmt_name: str) -> None:
             q = next(parser)
         except StopIteration:
             break
+        except MemoryError:  # pyoxigraph: "Reached the buffer maximal size of 16777216"
+            raise ParseError(
+                source.label,
+                None,
+                None,
+                "a term longer than the parser's 16 MB buffer; "
+                "only N-Triples and N-Quads can hold terms that long",
+            ) from None
         except SyntaxError as exc:
             where = (exc.lineno, exc.offset)
             if where == last:
@@ -809,8 +817,8 @@ def import_files(
                 params=("rejects", "graph"),
             )
     for label in inputs:
+        check_input(label)  # a folder or a device is named as such before its format is asked
         detect_format(label, opts.format)
-        check_input(label)
     staged: list[_Staged] = []
     with open_store(ws.store_path, write=True) as store:
         first_id = next_import_id(store)

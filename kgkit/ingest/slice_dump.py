@@ -32,7 +32,7 @@ from pathlib import Path
 import pyoxigraph as ox
 
 import kgkit.ingest.lines as _lines
-from kgkit.errors import ArgumentError, InputError, ParseError
+from kgkit.errors import ArgumentError, InputError, ParseError, one_line
 from kgkit.ingest.formats import LINE_BASED, detect_format
 from kgkit.ingest.lines import ChunkSpec, iter_byte_chunks, process_chunks
 from kgkit.ingest.loader import Progress, _Rejects
@@ -153,14 +153,15 @@ def slice_dump(
         raise InputError("nothing to slice: give one or more files, or - for standard input")
     if on_error not in ("stop", "skip"):
         raise ArgumentError("on_error", f"takes 'stop' or 'skip', not {on_error!r}")
+    for label in inputs:
+        check_input(label)  # a folder or a device is named as such before its format is asked
     formats = [detect_format(x, format) for x in inputs]
     for label, fmt in zip(inputs, formats, strict=True):
         if fmt not in LINE_BASED:
             raise InputError(
-                f"{label}: kgkit slice reads line-based formats (nt, nq, records), not {fmt}; "
-                "import it instead"
+                f"{one_line(label)}: kgkit slice reads line-based formats (nt, nq, records), "
+                f"not {fmt}; import it instead"
             )
-        check_input(label)
     if roots and "-" in inputs:
         raise ArgumentError(
             "roots", "reads the input twice, so the input cannot come from standard input"
