@@ -23,10 +23,7 @@ import shutil
 from pathlib import Path
 
 import pytest
-
-DATA = Path(__file__).resolve().parent / "data"
-RELEASE_1 = DATA / "refresh-release-1"
-K = "http://example.org/kilnmoor/"
+from refresh_support import DATA, RELEASE_1, K, copied_workspace, released_1  # noqa: F401
 
 #: what an annotator's loader relies on (issue 10, "Names the acceptance checks rely on")
 LEXICON_COLUMNS = ["alias", "match_key", "topic", "language", "kind", "shared_by"]
@@ -139,39 +136,6 @@ def names_not_followed(old: Path, new: Path) -> list[str]:
 
 
 # --- running the cycle ---------------------------------------------------------------
-
-
-@pytest.fixture(scope="module")
-def released_1(tmp_path_factory) -> Path:
-    """A workspace holding release 1.0.0 of the Kilnmoor archive, made once per module
-    through the command line (import, then release); each test works on a copy."""
-    from click.testing import CliRunner
-
-    from kgkit.cli import cli
-    from kgkit.workspace import init_workspace
-
-    ws = init_workspace(tmp_path_factory.mktemp("refresh") / "ws")
-    for name in ("crafts.yaml", "crafts.curation.yaml"):
-        shutil.copy(RELEASE_1 / name, ws.vocab_dir / name)
-    runner = CliRunner()
-    for args in (
-        ["import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor"],
-        ["release", str(ws.vocab_dir / "crafts.yaml")],
-    ):
-        r = runner.invoke(cli, ["--workspace", str(ws.root), *args])
-        assert r.exit_code == 0, r.output
-    assert (ws.vocab_dir / "crafts" / "1.0.0" / "manifest.json").is_file()
-    return ws.root
-
-
-@pytest.fixture
-def workspace(released_1, tmp_path):
-    """This module's workspace: a copy of the one holding release 1 (store closed)."""
-    from kgkit.workspace import load_workspace
-
-    root = tmp_path / "ws"
-    shutil.copytree(released_1, root, symlinks=True)
-    return load_workspace(root)
 
 
 @pytest.fixture

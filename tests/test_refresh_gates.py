@@ -18,10 +18,7 @@ import shutil
 from pathlib import Path
 
 import pytest
-
-DATA = Path(__file__).resolve().parent / "data"
-RELEASE_1 = DATA / "refresh-release-1"
-K = "http://example.org/kilnmoor/"
+from refresh_support import DATA, RELEASE_1, K, copied_workspace, released_1  # noqa: F401
 
 
 def _snapshot(home: Path) -> dict[str, bytes]:
@@ -33,38 +30,6 @@ def _snapshot(home: Path) -> dict[str, bytes]:
         for p in sorted(home.rglob("*"))
         if p.is_file() and p.relative_to(home).parts[0] != "build"
     }
-
-
-@pytest.fixture(scope="module")
-def released_1(tmp_path_factory) -> Path:
-    """A workspace holding release 1.0.0 of the Kilnmoor archive, made once per module
-    through the command line (import, then release); each test works on a copy."""
-    from click.testing import CliRunner
-
-    from kgkit.cli import cli
-    from kgkit.workspace import init_workspace
-
-    ws = init_workspace(tmp_path_factory.mktemp("gates") / "ws")
-    for name in ("crafts.yaml", "crafts.curation.yaml"):
-        shutil.copy(RELEASE_1 / name, ws.vocab_dir / name)
-    runner = CliRunner()
-    for args in (
-        ["import", str(RELEASE_1 / "kilnmoor-1.nt"), "--graph", "kilnmoor"],
-        ["release", str(ws.vocab_dir / "crafts.yaml")],
-    ):
-        r = runner.invoke(cli, ["--workspace", str(ws.root), *args])
-        assert r.exit_code == 0, r.output
-    return ws.root
-
-
-@pytest.fixture
-def workspace(released_1, tmp_path):
-    """This module's workspace: a copy of the one holding release 1 (store closed)."""
-    from kgkit.workspace import load_workspace
-
-    root = tmp_path / "ws"
-    shutil.copytree(released_1, root, symlinks=True)
-    return load_workspace(root)
 
 
 class Owner:
