@@ -111,7 +111,8 @@ def test_argument_error_is_shown_with_the_flag_and_exit_2(kgkit, tmp_path):
     r = kgkit("import", str(dump), "--batch-size", "0")
     assert (r.exit_code, r.output) == (2, "Error: --batch-size: must be at least 1\n")
     r = kgkit("import", str(dump), "--graph", "no good")
-    assert r.exit_code == 2 and r.output.startswith("Error: --graph: 'no good' is not a valid"), r.output
+    assert r.exit_code == 2, r.output
+    assert r.output.startswith("Error: --graph: 'no good' is not a valid")
 
 
 @pytest.mark.parametrize(
