@@ -20,11 +20,11 @@ names of those without a successor are listed in changelog.md as no longer match
 
 from __future__ import annotations
 
-import csv
 import importlib.metadata
 import json
 
 import pycountry  # in the test extra: a missing package fails, never skips
+from refresh_support import keys_by_topic, lexicon, names_not_followed, topics
 
 from kgkit.ingest import ImportOptions, import_files
 from kgkit.release.release import make_release
@@ -81,16 +81,6 @@ def dump(with_withdrawn: bool, successor: dict[str, str | None]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def lexicon(folder) -> list[dict]:
-    with open(folder / "lexicon.tsv", encoding="utf-8", newline="") as fh:
-        return list(csv.DictReader(fh, delimiter="\t", quoting=csv.QUOTE_NONE))
-
-
-def topics(folder) -> dict[str, dict]:
-    lines = (folder / "topics.jsonl").read_text(encoding="utf-8").splitlines()
-    return {t["id"]: t for t in map(json.loads, lines)}
-
-
 def test_withdrawn_countries_names_follow_their_iso_3166_3_successor(workspace):
     # ISO 3166-3 via pycountry (26.2.16 when written; PYCOUNTRY at run time): the successor
     # is the alpha-2 code in the last two letters of alpha_4, when those letters are a
@@ -119,9 +109,7 @@ def test_withdrawn_countries_names_follow_their_iso_3166_3_successor(workspace):
 
     old_rows, new_rows = lexicon(r1.path), lexicon(r2.path)
     new_topics = topics(r2.path)
-    keys_now: dict[str, set[str]] = {}
-    for row in new_rows:
-        keys_now.setdefault(row["topic"], set()).add(row["match_key"])
+    keys_now = keys_by_topic(new_rows)
     md = (r2.path / "changelog.md").read_text(encoding="utf-8")
     lost = md.split("## Names no longer matched\n\n", 1)[1].split("\n## ", 1)[0].splitlines()
 
@@ -150,6 +138,8 @@ def test_withdrawn_countries_names_follow_their_iso_3166_3_successor(workspace):
         )
         assert f"- deprecated {h.name} ({code}), replaced by {to}  (graph)" in md, code
 
+    # issue 10's invariant on every row (current countries too), read from the files
+    assert names_not_followed(r1.path, r2.path) == []
     # no current country lost a name on the way
     for row in old_rows:
         if row["topic"] in current:
