@@ -145,6 +145,13 @@ def test_every_link_between_pages_leads_to_a_file(page):
     assert missing == []
 
 
+def test_the_readme_links_every_reference_page_once():
+    section = README.split("\n## Reference\n", 1)[1].split("\n## ", 1)[0]
+    links = re.findall(r"\]\((docs/[^)]+)\)", section)
+    assert sorted(links) == sorted(set(links))
+    assert sorted(set(links)) == sorted(f"docs/{name}" for name in DOCS if name != "README.md")
+
+
 def _quoted(text: str, lang: str = "text") -> list[str]:
     return [
         line.strip()
