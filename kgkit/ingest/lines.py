@@ -9,7 +9,13 @@ Finding a bad line: the parser stops at an error; the line it names (or the one 
 since a missing final dot is reported on the *next* line) is parsed alone to confirm it
 and to get the column of the bad term, the line is set aside, and parsing resumes on the
 line after it. After a first error the rest of a chunk is parsed in bounded windows, so a
-dump with many bad lines is not re-parsed quadratically.
+dump with many bad lines is not re-parsed quadratically. Lines that parse alone but not
+together (binary junk) are parsed one by one.
+
+Two limits of the parser are met before it sees a line: a line nesting RDF 1.2 triple
+terms more than :data:`MAX_TRIPLE_TERM_DEPTH` deep is set aside (the parser's recursion
+ended the process), and a line longer than its 16 MB term buffer is parsed with its long
+string literals swapped out for short stand-ins and put back afterwards.
 """
 
 from __future__ import annotations
