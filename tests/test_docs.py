@@ -187,6 +187,10 @@ def test_quoted_output_is_real_output(runner, tmp_path, monkeypatch):
     section = README.split("\n## What the demo shows\n", 1)[1].split("\n## ", 1)[0]
     demo_quotes = _quoted(section) + _quoted(DOCS["demo.md"])
     assert len(demo_quotes) > 30
+    steps = [p for p in printed if re.match(r"\d+\. ", p)]
+    words = "one two three four five six seven eight nine ten eleven twelve thirteen fourteen"
+    words += " fifteen sixteen seventeen eighteen nineteen twenty"
+    assert f"In {words.split()[len(steps) - 1]} steps" in section  # the README counts them
     assert _missing(demo_quotes, printed) == []
 
     monkeypatch.chdir(tmp_path / "demo-workspace")
