@@ -8,9 +8,9 @@ stream must end with its end marker (a file cut short is an error, not a shorter
 dump), its checksum must match where the format has one (gzip CRC-32 and length, bzip2
 block and stream CRCs, xz check, zstd content checksum when the frame carries one), and
 nothing but further streams of the same format may follow it (xz stream padding and
-zstd skippable frames excepted). A damaged file raises :class:`DamagedInputError` naming the file; it is
-raised while reading, so a caller that reads to the end (:meth:`Source.finish`) knows
-the input was whole before it commits anything.
+zstd skippable frames excepted). A damaged file raises :class:`DamagedInputError`
+naming the file; it is raised while reading, so a caller that reads to the end
+(:meth:`Source.finish`) knows the input was whole before it commits anything.
 """
 
 from __future__ import annotations
