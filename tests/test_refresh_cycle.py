@@ -16,6 +16,7 @@ topic takes over.
 
 from __future__ import annotations
 
+import json
 import re
 import shutil
 from pathlib import Path
@@ -189,6 +190,12 @@ def test_deletion_without_replacement_lists_every_lost_name_by_label(cycle):
     [stale] = section(md, "Curation edits that no longer apply")
     assert "edit 3 (add_alias spoon-carving)" in stale
     assert "deprecated spoon carving (spoon-carving) -> (no replacement)" in out
+    # changelog.json says the same for machines: each name, its topic by label and id, why
+    cl = json.loads((r2 / "changelog.json").read_text(encoding="utf-8"))
+    assert sorted((n["name"], n["topic"], n["label"], n["reason"]) for n in cl["names_lost"]) == [
+        (name, "spoon-carving", "spoon carving", "deprecated-without-replacement")
+        for name in ("Löffelschnitzen", "spoon carving", "spoon knife work", "spoon whittling")
+    ]
 
 
 @pytest.mark.xfail(

@@ -185,13 +185,17 @@ def test_curation_merge_into_a_topic_nobody_has_refuses_release_with_nearest_nam
     ), line
 
 
-def test_dump_cut_short_refuses_release_by_topic_loss(owner, tmp_path):
-    owner.release_1()
-    # the same dump, cut short at a line end after its first 22 lines (6 of 13 topics)
+def _cut_short(tmp_path: Path) -> Path:
+    """Release 1's dump cut short at a line end after its first 22 lines (6 of 13 topics)."""
     lines = (RELEASE_1 / "kilnmoor-1.nt").read_text(encoding="utf-8").splitlines(keepends=True)
     cut = tmp_path / "kilnmoor-cut.nt"
     cut.write_text("".join(lines[:22]), encoding="utf-8")
-    owner.load(cut)
+    return cut
+
+
+def test_dump_cut_short_refuses_release_by_topic_loss(owner, tmp_path):
+    owner.release_1()
+    owner.load(_cut_short(tmp_path))
     [line] = owner.refused()
     assert line.startswith(
         "topic-loss: 7 of the 13 active topics of release 1.0.0 are gone without a "
@@ -216,3 +220,17 @@ def test_several_gates_one_line_each_and_waiving_one_still_refuses(owner):
     assert r.exit_code == 1 and "unknown-entity: " in r.output
     assert all(not ln.startswith("  missing-language") for ln in r.output.splitlines())
     assert sorted(p.name for p in owner.home.iterdir()) == ["1.0.0", "build"]
+
+
+def test_dump_cut_short_releases_when_the_spec_allows_that_share(owner, tmp_path):
+    """release.max_topic_loss in the spec is the owner's own limit: no waiver needed."""
+    owner.release_1()
+    owner.load(_cut_short(tmp_path))
+    with open(owner.spec, "a", encoding="utf-8") as fh:
+        fh.write("release: {max_topic_loss: 0.5}\n")
+    assert owner.refused()[0].startswith("topic-loss: 7 of the 13 active topics")  # 54 % > 50 %
+    _edit(owner.spec, "max_topic_loss: 0.5", "max_topic_loss: 0.6")
+    r = owner.release()
+    assert r.exit_code == 0, r.output
+    manifest = json.loads((owner.home / "2.0.0" / "manifest.json").read_text(encoding="utf-8"))
+    assert "overrides" not in manifest
