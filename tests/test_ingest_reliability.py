@@ -15,6 +15,7 @@ import re
 import stat
 import subprocess
 import sys
+from pathlib import Path
 
 import pyoxigraph as ox
 import pytest
@@ -541,3 +542,19 @@ def test_line_over_16_mb_imports_when_sliced(workspace, tmp_path):
     turtle.write_bytes(long_line.replace(b"_:n", f"<{E}a>".encode()))
     message = _error(workspace, turtle, ImportOptions(graph="t"))
     assert message.startswith(f"{turtle}: a term longer than the parser's 16 MB buffer")
+
+
+def test_rejects_folder_that_cannot_be_written_stops_before_reading(workspace, tmp_path):
+    # /proc refuses new files even to root: the rejects file cannot be made there
+    if not Path("/proc/self").exists():
+        pytest.skip("needs Linux /proc")
+    dump = tmp_path / "d.nt"
+    dump.write_bytes(NT + b"<bad> .\n")
+    before = _snapshot(workspace)
+    with pytest.raises(KgkitError, match=r"^rejects file /proc/kgkit-rejects\.txt: cannot write"):
+        import_files(
+            workspace,
+            [str(dump)],
+            ImportOptions(on_error="skip", rejects=Path("/proc/kgkit-rejects.txt")),
+        )
+    assert _snapshot(workspace) == before

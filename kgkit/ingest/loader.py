@@ -219,6 +219,11 @@ class _Rejects:
             ) from None
         self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="\n", errors="surrogateescape")
 
+    def prepare(self) -> None:
+        """Make the temporary file now (it is made anyway when committed)."""
+        if self.path is not None and self._fh is None:
+            self._open()
+
     def add(self, label: str, line: int | None, column: int | None, cause: str, text: str):
         if self.path is None:
             return
@@ -655,6 +660,7 @@ def _stage(
     run = _Run(store, content, opts, rejects, scope=f"k{import_id}x")
     files: list[FileInfo] = []
     try:
+        rejects.prepare()  # a rejects folder that cannot be written stops us before reading
         for n, (label, fmt_name) in enumerate(zip(inputs, formats, strict=True), 1):
             run.scope = f"k{import_id}f{n}x"
             source = open_source(label, lone_cr=fmt_name in ("nt", "nq"))
