@@ -40,6 +40,31 @@ from refresh_support import (  # noqa: F401 (fixtures)
 # --- running the cycle ---------------------------------------------------------------
 
 
+def changes_not_named(old: Path, new: Path) -> list[str]:
+    """Topics that changed status or appeared in ``new`` whose changelog.md line does not
+    show them by label and id (``LABEL (ID)``, or ``id of LABEL changed ID -> ID``)."""
+    before, after = topics(old), topics(new)
+    lines = [ln for ln in (new / "changelog.md").read_text(encoding="utf-8").splitlines()
+             if ln.startswith("- ")]  # fmt: skip
+    missing = []
+    for tid, t in after.items():
+        was = before.get(tid)
+        if was is not None and was["status"] == t["status"]:
+            continue
+        name = t["labels"].get("en")
+        if t["status"] == "deprecated":
+            rep = t["replaced_by"]
+            to = f"{after[rep]['labels']['en']} ({rep})" if rep else "(nothing)"
+            wanted = [f"- deprecated {name} ({tid}), replaced by {to}  (",
+                      f"- id of {name} changed {tid} -> {rep}  ("]  # fmt: skip
+        else:
+            wanted = [f"- added {name} ({tid})  (", f"- restored {name} ({tid})  ("]
+            wanted += [f"- id of {name} changed {o} -> {tid}  (" for o in before]
+        if not any(ln.startswith(w) for ln in lines for w in wanted):
+            missing.append(f"{tid} ({t['status']}): no changelog.md line like {wanted[0]!r}")
+    return missing
+
+
 @pytest.fixture
 def cycle(kgkit, workspace):
     """Release 1 of the Kilnmoor archive is there; returns ``refresh(case)`` that imports
@@ -64,6 +89,7 @@ def cycle(kgkit, workspace):
         assert (home / "2.0.0" / "manifest.json").is_file(), r.output
         v = kgkit("verify", str(home / "2.0.0"))
         assert v.exit_code == 0, v.output
+        assert changes_not_named(home / "1.0.0", home / "2.0.0") == []
         return home / "1.0.0", home / "2.0.0", r.output
 
     return refresh
