@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 import os
 import shutil
-import subprocess
 
 import pytest
 from test_release import REDIRECT, TOPICS_1, dump, setup, topics_2
@@ -18,6 +17,12 @@ from test_release import REDIRECT, TOPICS_1, dump, setup, topics_2
 from kgkit.release.manifest import ManifestError, manifest_json, verify_release
 from kgkit.release.release import ReleaseError, make_release
 from kgkit.release.versioning import clear_leftovers, list_releases, scan_releases
+
+
+def _no_such_pid() -> int:
+    """A process id no process can have (above the kernel's largest), as a killed one."""
+    with open("/proc/sys/kernel/pid_max") as fh:
+        return int(fh.read()) + 1
 
 
 def _first_release(ws):
@@ -175,13 +180,11 @@ def test_stray_folder_in_the_way_of_the_next_version_is_refused_by_name(workspac
 def test_temp_folders_of_killed_releases_and_compiles_are_removed(workspace):
     spec, _r1 = _first_release(workspace)
     home = workspace.vocab_dir / "sport"
-    # a process id that is surely gone: one that ran and ended
-    dead = subprocess.Popen(["true"])
-    dead.wait()
+    dead = _no_such_pid()
     left = [
-        home / f".build.tmp-{dead.pid}",
-        home / f".build.old-{dead.pid}",
-        home / f".2.0.0.tmp-{dead.pid}-x1y2z3",
+        home / f".build.tmp-{dead}",
+        home / f".build.old-{dead}",
+        home / f".2.0.0.tmp-{dead}-x1y2z3",
         home / ".2.0.0.tmp-k3j_9xa1",  # the older name, without a process id
     ]
     running = home / f".build.tmp-{os.getppid()}"  # a live process: left alone
@@ -233,9 +236,7 @@ def test_temp_folder_of_a_killed_compile_is_removed_by_the_next_compile(workspac
     spec = setup(workspace, dump(TOPICS_1))
     home = workspace.vocab_dir / "sport"
     home.mkdir()
-    dead = subprocess.Popen(["true"])
-    dead.wait()
-    left = home / f".build.tmp-{dead.pid}"
+    left = home / f".build.tmp-{_no_such_pid()}"
     left.mkdir()
     (left / "skos.ttl").write_text("half written")
     compile_vocabulary(workspace, spec)
