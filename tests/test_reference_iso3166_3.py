@@ -124,6 +124,14 @@ def test_withdrawn_countries_names_follow_their_iso_3166_3_successor(workspace):
             if successor[code]:
                 # ISO 3166-3 via pycountry: the withdrawn name now tags its successor
                 assert row["match_key"] in keys_now[successor[code]], (PYCOUNTRY, code, row)
+                # ... as an alias of the successor, written as the withdrawn name was
+                assert any(
+                    r["topic"] == successor[code]
+                    and r["match_key"] == row["match_key"]
+                    and r["alias"] == row["alias"]
+                    and r["kind"] == "alias"
+                    for r in new_rows
+                ), (PYCOUNTRY, code, row)
             else:
                 line = (
                     f"- {json.dumps(row['alias'], ensure_ascii=False)} [en], was a name of "
