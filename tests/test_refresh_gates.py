@@ -215,6 +215,10 @@ def test_several_gates_one_line_each_and_waiving_one_still_refuses(owner):
     lines = owner.refused()
     gates = [ln.split(":", 1)[0] for ln in lines]
     assert "missing-language" in gates and "unknown-entity" in gates
+    [unknown] = [ln for ln in lines if ln.startswith("unknown-entity: ")]
+    assert f"include[0] '<{K}bowl-turnin>': no graph mentions it; nearest: bowl turning " in (
+        unknown
+    ), unknown
     # waiving one gate is not waiving them all
     r = owner.release("--waive", "missing-language", "--reason", "known")
     assert r.exit_code == 1 and "unknown-entity: " in r.output
