@@ -5,13 +5,17 @@ refreshes the graph with ``kgkit import`` into the same graph, releases again, a
 reads only the release folders (``lexicon.tsv``, ``topics.jsonl``, ``changelog.md``) with
 plain ``csv``/``json``, never through kgkit's own readers, to check the invariant of
 issue 10: every match key of release N is, in release N+1, a key of the same topic or of
-its replacement, or listed in ``changelog.md`` under "Names no longer matched" by name,
-the topic's label and id, and a reason.
+its replacement, or listed in ``changelog.md`` by name, language, the topic's label and
+id, and a reason (``- "NAME" [LANG], was a name of LABEL (ID): REASON``); and that every
+topic deprecated, added, restored or given a new id has its changelog line, label beside id.
 
 Scenarios (one ``tests/data/refresh-*`` folder each): a redirect in the refreshed dump
-(``owl:sameAs`` from the old entity to another), a curation merge, an id change (a clash
-suffix appearing), a deletion without replacement, and a deleted topic whose name another
-topic takes over.
+(``owl:sameAs`` from the old entity to another; the other way round; in two steps; to an
+entity outside the vocabulary), a curation merge, an id change (a clash suffix appearing,
+then going away), a deletion without replacement (then the topic coming back), a deleted
+topic whose name another topic takes over, a second redirect over three releases, and a
+redirect undone by the next dump. Findings in others' code are marked
+``xfail(strict=True)`` with the owner named in the reason.
 """
 
 from __future__ import annotations
