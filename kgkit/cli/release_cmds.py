@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import sys
 
 import click
@@ -11,6 +12,7 @@ from kgkit.release.diffing import diff_folders
 from kgkit.release.lint import lint_path
 from kgkit.release.manifest import verify_release
 from kgkit.release.release import make_release
+from kgkit.wording import counted
 
 
 @click.command("release")
@@ -84,6 +86,14 @@ def release_command(
     if res.stale:
         n = len(res.stale)
         click.echo(f"  {n} stale curation edit{'' if n == 1 else 's'} (see changelog.md)")
+    lost = res.lost_names()
+    if lost:
+        shown = ", ".join(json.dumps(n["name"], ensure_ascii=False) for n in lost[:5])
+        more = f" and {len(lost) - 5} more" if len(lost) > 5 else ""
+        click.echo(
+            f"  {counted(len(lost), 'name')} no longer matched by any topic: {shown}{more} "
+            "(see changelog.md)"
+        )
 
 
 @click.command("verify")

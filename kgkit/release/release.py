@@ -73,6 +73,13 @@ class ReleaseResult:
     #: the released vocabulary (for labels beside ids in what a person reads)
     vocabulary: object = None
 
+    def lost_names(self) -> list[dict]:
+        """The previous release's names that no topic of this release matches (the
+        words annotators lose), as the report lists them."""
+        report = getattr(self.vocabulary, "report", None)
+        lost = (report.lost_names or []) if report is not None else []
+        return [n for n in lost if not n.get("still_matches")]
+
     def topic_text(self, topic_id: str | None) -> str:
         """A topic as a person reads it: its label beside its id."""
         from kgkit.wording import topic_text
@@ -95,6 +102,7 @@ class ReleaseResult:
             "content_sha256": self.manifest["content_sha256"],
             "warnings": self.warnings,
             "waived": [o["gate"] for o in self.overrides],
+            "names_lost": len(self.lost_names()),
         }
 
 
