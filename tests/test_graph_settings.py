@@ -469,3 +469,23 @@ def test_show_by_label_reads_each_graphs_own_label_predicates(iso_ws):
     assert out.output == (
         f"Error: no entity is labelled or coded {state.code!r}; try `kgkit find {state.code}`\n"
     )
+
+
+def test_import_scope_profile_keeps_the_graphs_own_predicates(workspace, kgkit, tmp_path):
+    # a graph whose profile names its own label predicate must not lose those statements
+    # when it is imported with --scope profile (the other graph keeps only the workspace's)
+    _settings(workspace, f"graphs:\n  ch:\n    profile:\n      label: ['<{EX}isoName>']\n")
+    dump = tmp_path / "d.nt"
+    dump.write_text(
+        f'<{EX}zh> <{EX}isoName> "Zürich"@de .\n'
+        f'<{EX}zh> <http://www.w3.org/2004/02/skos/core#prefLabel> "Zurich"@en .\n'
+        f'<{EX}zh> <{EX}population> "1"^^<http://www.w3.org/2001/XMLSchema#integer> .\n',
+        encoding="utf-8",
+    )
+    counts = {}
+    for graph in ("ch", "other"):
+        r = kgkit("import", str(dump), "--graph", graph, "--scope", "profile", "--json")
+        assert r.exit_code == 0, r.output
+        counts[graph] = json.loads(r.output.strip().splitlines()[-1])
+    assert (counts["ch"]["loaded"], counts["ch"]["filtered"]) == (2, 1)
+    assert (counts["other"]["loaded"], counts["other"]["filtered"]) == (1, 2)

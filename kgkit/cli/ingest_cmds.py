@@ -10,7 +10,7 @@ import click
 
 from kgkit.cli.common import echo_json, get_workspace, is_terminal
 from kgkit.ingest import FORMATS, ImportOptions, Progress, import_files, make_slice
-from kgkit.ingest.loader import DEFAULT_BATCH
+from kgkit.ingest.loader import DEFAULT_BATCH, graph_name_for
 from kgkit.store import list_graphs, open_store
 
 
@@ -170,6 +170,8 @@ def import_command(
             scope=scope,
             predicates=_split(predicates),
             literal_languages=_split(literal_languages),
+            # a graph with its own profile in kgkit.yaml keeps its own predicates
+            graphs=[graph] if graph else [graph_name_for(f) for f in files],
         ),
         batch_size=batch_size,
         base_iri=base_iri,

@@ -170,18 +170,21 @@ def make_slice(
     scope: str = "all",
     predicates: list[str] | None = None,
     literal_languages: list[str] | None = None,
+    graphs: list[str] | None = None,
 ) -> Slice:
     """Build a :class:`Slice` from command-line style choices.
 
     ``scope`` is ``"all"`` (every predicate) or ``"profile"`` (the predicates of the
-    workspace profile); ``predicates`` adds to it; ``literal_languages`` keeps only
+    workspace profile, or, with ``graphs``, of those graphs' profiles in ``kgkit.yaml``
+    together); ``predicates`` adds to it; ``literal_languages`` keeps only
     language-tagged literals in those languages (untagged ones always pass).
     """
     if scope not in ("all", "profile"):
         raise ArgumentError("scope", f"takes 'all' or 'profile', not {one_line(repr(scope))}")
     kept: set[str] | None = None
     if scope == "profile":
-        kept = set(ws.profile.all_predicates())
+        profile = ws.profile_over(graphs) if graphs else ws.profile
+        kept = set(profile.all_predicates())
     if predicates:
         kept = (kept or set()) | {ws.expand(p, where="predicates") for p in predicates}
     langs = None
