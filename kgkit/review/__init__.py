@@ -476,6 +476,7 @@ def render_page(review: Review) -> str:
 
     stale_cur = ((report.get("curation") or {}).get("stale")) or []
     applied_cur = ((report.get("curation") or {}).get("applied")) or []
+    overridden_cur = ((report.get("curation") or {}).get("overridden")) or []
     heading = f"{review.title} {review.version}" if review.version else f"{review.title} (build)"
     facts = [
         ("topics", f"{len(active):,}"),
@@ -485,7 +486,11 @@ def render_page(review: Review) -> str:
         ("ambiguous keys", f"{len(ambiguous):,}"),
         *([("common words", f"{len(common):,}")] if common is not None else []),
         ("dropped topics", f"{len(dropped):,}"),
-        ("curation edits", f"{len(applied_cur):,} applied, {len(stale_cur):,} stale"),
+        (
+            "curation edits",
+            f"{len(applied_cur):,} applied, {len(overridden_cur):,} overridden, "
+            f"{len(stale_cur):,} stale",
+        ),
     ]
     if lint is not None:
         lc = lint.get("counts") or {}
