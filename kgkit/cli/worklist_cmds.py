@@ -34,9 +34,10 @@ def _where(name) -> str:
 def triage_command(folder: Path, corpus: Path | None, limit: int | None, as_json: bool) -> None:
     """List the names several topics share, riskiest first.
 
-    VOCAB is a release or build folder. Risk, in this order: how many topics share the name, whether it is someone's
-    preferred label, how common it is in general text (Zipf frequency), and with
-    --corpus the share of documents it occurs in. Each name comes with its
+    VOCAB is a release or build folder. Risk, in this order: how many topics
+    share the name, whether it is someone's preferred label, how common it is in
+    general text (Zipf frequency), and with --corpus the share of documents it
+    occurs in. Each name comes with its
     candidate topics, their labels and parents; settle one with a curation edit
     such as `- settle: {name: bass, keep: [sea-bass]}`.
 
