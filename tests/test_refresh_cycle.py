@@ -164,11 +164,6 @@ def test_curation_merge_hands_every_name_to_the_topic_merged_into(cycle):
                    for ln in added), (name, added)  # fmt: skip
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="release-trust: diffing._edit_effects keys effects by (topic, kind), so an "
-    "add_alias on the merge target applied in both releases hides the merge's alias-added",
-)
 def test_alias_gained_by_a_curation_merge_is_attributed_to_curation(cycle):
     """The merge is a curation edit: the aliases it hands to the topic merged into are the
     curation's doing, not the graph's (the graph did not change between the releases)."""

@@ -242,19 +242,32 @@ def _refs(*sides: Mapping[str, TopicRecord]) -> dict[str, str]:
     return out
 
 
-def _edit_effects(report: Report | None, refs: dict[str, str]) -> set[tuple[str, str]]:
-    """(topic id, change kind) pairs that the applied curation edits of a build can make."""
-    out: set[tuple[str, str]] = set()
+#: fields of an applied edit that say where it is written, not what it does
+_NOT_WHAT = frozenset({"edit", "line", "file", "note", "carried", "overridden_by"})
+
+
+def _edit_effects(report: Report | None, refs: dict[str, str]) -> dict[str, set[tuple[str, str]]]:
+    """What each applied curation edit of a build does -> the (topic id, change kind)
+    pairs it can make. The key is the edit's action and fields (topics resolved to
+    ids), not its place in the file, so the same edit on both sides has the same key."""
+    out: dict[str, set[tuple[str, str]]] = {}
     report = report or Report()
     applied = (report.curation or {}).get("applied") or []
     for edit in applied:
         if not isinstance(edit, dict):
             continue
-        for key, kinds in _EDIT_KINDS.get(str(edit.get("action")), {}).items():
+        kinds_of = _EDIT_KINDS.get(str(edit.get("action")), {})
+        what = {
+            k: (refs.get(v, v) if k in kinds_of and isinstance(v, str) else v)
+            for k, v in edit.items()
+            if k not in _NOT_WHAT
+        }
+        effects = out.setdefault(json.dumps(what, sort_keys=True, ensure_ascii=False), set())
+        for key, kinds in kinds_of.items():
             ref = edit.get(key)
             if isinstance(ref, str):
                 tid = refs.get(ref, ref)
-                out.update((tid, k) for k in kinds)
+                effects.update((tid, k) for k in kinds)
     # topics the curation excluded with a subtree: the compile names them as dropped
     by_curation = set()
     for d in report.dropped_topics or []:
@@ -265,7 +278,8 @@ def _edit_effects(report: Report | None, refs: dict[str, str]) -> set[tuple[str,
         if reason.startswith("in-excluded-subtree:") and reason.split(":", 1)[1] in by_curation:
             by_curation.add(d.get("id"))
     for tid in by_curation:
-        out.update((tid, k) for k in ("removed", "deprecated", "children-moved"))
+        key = json.dumps({"excluded": tid}, ensure_ascii=False)
+        out[key] = {(tid, k) for k in ("removed", "deprecated", "children-moved")}
     return out
 
 
@@ -364,9 +378,14 @@ def diff_topics(
     before, after = _edit_effects(old_report, refs), _edit_effects(new_report, refs)
     # an edit applied on both sides changes nothing between them; one applied on the
     # new side only explains its changes, one applied on the old side only (taken out
-    # of the file, or gone stale) explains their undoing
-    effects = (after - before) | {
-        (t, k2) for t, k in before - after for k2 in (k, *_UNDONE_BY.get(k, ()))
+    # of the file, or gone stale) explains their undoing. Edit by edit: another edit
+    # on both sides with the same effect on the same topic hides nothing.
+    effects = {e for key in after.keys() - before.keys() for e in after[key]}
+    effects |= {
+        (t, k2)
+        for key in before.keys() - after.keys()
+        for t, k in before[key]
+        for k2 in (k, *_UNDONE_BY.get(k, ()))
     }
 
     def cause_for(topic_obj):
