@@ -51,6 +51,7 @@ __all__ = [
     "check_waivers",
     "gate_error",
     "gate_problems",
+    "lint_input",
     "topic_text",
     "vocabulary_gates",
     "waived_record",
@@ -140,13 +141,54 @@ def check_labels(vocab, required: Sequence[str] = ()) -> list[GateProblem]:
 _COVERED = {"no-preferred-label"}  # gate no-label
 
 
-def check_lint(vocab, skos: str | None) -> list[GateProblem]:
-    """``lint-error``: one line per lint check of level error that fires on the SKOS text."""
-    if skos is None:
-        return []
-    from kgkit.release.lint import lint_turtle
+def lint_input(vocab) -> tuple[list[str], dict, list[tuple[str, str]]]:
+    """What the SKOS file of ``vocab`` says that the error-level lint checks read, as
+    plain data for :func:`kgkit.release.lint.lint_concepts`: the concepts' IRIs, their
+    labels (IRI -> kind -> [(text, lower-case language)]) and the (narrower, broader)
+    links. It follows :func:`kgkit.vocab.writers.skos_text` statement for statement
+    (lent labels under their written tag, an alias equal to a preferred label not
+    written, skos:broader from active topics, skos:narrower from active parents);
+    ``tests/test_gate_lint.py`` checks that linting this and linting the text agree."""
+    records = vocab.topics
+    iri_of = {r.id: r.iri for r in records}
+    active = {r.id for r in records if r.is_active}
+    no_tags: dict[str, str] = {}
+    labels_of: dict[str, dict] = {}
+    up: list[tuple[str, str]] = []
+    for r in records:
+        tags = vocab.label_tags.get(r.id, no_tags)
+        kinds = labels_of.setdefault(r.iri, {"preferred": [], "alternative": [], "hidden": []})
+        written = set()
+        for lang, text in r.labels.items():
+            tag = tags.get(lang, lang)
+            written.add((text, tag))
+            kinds["preferred"].append((text, tag.lower()))
+        for lang, aliases in r.aliases.items():
+            for a in aliases:
+                if (a, lang) not in written:
+                    kinds["alternative"].append((a, lang.lower()))
+        for p in r.parents:
+            if r.is_active:
+                up.append((r.iri, iri_of[p]))  # skos:broader
+            if p in active:
+                up.append((r.iri, iri_of[p]))  # the parent's skos:narrower
+    return list(iri_of.values()), labels_of, up
 
-    report = lint_turtle(skos, languages=tuple(vocab.languages), warnings=False)
+
+def check_lint(vocab) -> list[GateProblem]:
+    """``lint-error``: one line per lint check of level error that fires on the SKOS
+    the vocabulary makes, checked on the vocabulary itself (no text made or parsed)."""
+    from kgkit.release.lint import lint_concepts
+
+    concepts, labels_of, up = lint_input(vocab)
+    report = lint_concepts(
+        concepts,
+        labels_of,
+        up,
+        schemes=[vocab.scheme.iri],
+        languages=tuple(vocab.languages),
+        target=vocab.scheme.name or "<vocabulary>",
+    )
     ns = vocab.scheme.namespace
     by_check: dict[str, list] = {}
     for f in report.errors:
@@ -418,7 +460,6 @@ def gate_problems(
     *,
     previous=None,
     previous_name: str = "the previous release",
-    skos: str | None = None,
     backend=None,
     ws=None,
     edits: Iterable = (),
@@ -426,14 +467,13 @@ def gate_problems(
     """Every problem that keeps ``vocab`` (compiled from ``spec``) from being released.
 
     ``previous``: the vocabulary of the previous release (for ``topic-loss`` and to
-    know curation targets); ``skos``: the SKOS text the vocabulary makes (for
-    ``lint-error``); ``backend`` and ``ws``: the store or endpoint the compile read
+    know curation targets); ``backend`` and ``ws``: the store or endpoint the compile read
     (for ``unknown-entity``); ``edits``: the curation edits. A gate whose input is
     not given is not checked. An empty list means the vocabulary may be released.
     """
     out = check_labels(vocab, spec.languages.required)
     if vocab.active_topics():
-        out += check_lint(vocab, skos)
+        out += check_lint(vocab)
     if backend is not None and ws is not None:
         out += check_references(backend, ws, spec, edits, (vocab, previous))
     max_share = spec.max_topic_loss
@@ -441,24 +481,18 @@ def gate_problems(
     return out
 
 
-def vocabulary_gates(
-    ws, spec, vocab, edits: Iterable = (), previous=None, previous_name=None, skos=None
-):
+def vocabulary_gates(ws, spec, vocab, edits: Iterable = (), previous=None, previous_name=None):
     """Every gate problem of a compiled vocabulary (``previous``: the vocabulary of the
     release it follows, named ``previous_name``): what the compile warns about and the
-    release refuses. ``skos``: the SKOS text, when the caller has made it already."""
+    release refuses."""
     from kgkit.query import connect
-    from kgkit.vocab.folder import vocabulary_files
 
-    if skos is None and vocab.active_topics():
-        skos = vocabulary_files(vocab, ["skos"])["skos.ttl"]()
     with connect(ws) as backend:
         return gate_problems(
             vocab,
             spec,
             previous=previous,
             previous_name=previous_name or "the previous release",
-            skos=skos,
             backend=backend,
             ws=ws,
             edits=edits,

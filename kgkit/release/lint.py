@@ -42,6 +42,7 @@ __all__ = [
     "Finding",
     "LintReport",
     "LintTargetError",
+    "lint_concepts",
     "lint_graph",
     "lint_path",
     "lint_turtle",
@@ -192,15 +193,15 @@ def _display_labels(labels_of: dict, languages: tuple[str, ...] = ()) -> dict:
     language most concepts have one in (ties: the smaller tag), else the untagged one."""
     counts: dict[str, int] = defaultdict(int)
     for labels in labels_of.values():
-        for lang in {_lang(lit) for lit in labels["preferred"]}:
+        for lang in {lang for _, lang in labels["preferred"]}:
             counts[lang] += 1
     order = [lg.lower() for lg in languages]
     order += sorted((lg for lg in counts if lg), key=lambda lg: (-counts[lg], lg)) + [""]
     out = {}
     for node, labels in labels_of.items():
         by_lang = {}
-        for lit in sorted(labels["preferred"], key=str):
-            by_lang.setdefault(_lang(lit), str(lit))
+        for text, lang in sorted(labels["preferred"]):
+            by_lang.setdefault(lang, text)
         label = next((by_lang[lg] for lg in order if by_lang.get(lg, "").strip()), None)
         if label is not None:
             out[node] = one_line(label)
@@ -246,10 +247,11 @@ def lint_graph(
 
     broader, narrower, related = pairs(SKOS.broader), pairs(SKOS.narrower), pairs(SKOS.related)
     kinds = {"preferred": SKOS.prefLabel, "alternative": SKOS.altLabel, "hidden": SKOS.hiddenLabel}
-    labels_of: dict = defaultdict(lambda: {k: [] for k in kinds})
+    labels_of: dict = defaultdict(_no_labels)
     for kind, p in kinds.items():
         for s_, o in pairs(p):
-            labels_of[s_][kind].append(o)
+            labels_of[s_][kind].append((str(o), _lang(o)))
+    labels_of = dict(labels_of)
     typed = defaultdict(set)
     for s_, o in pairs(RDF.type):
         typed[str(o)].add(s_)  # keyed by text: the terms may be rdflib's or lint_turtle's
@@ -273,13 +275,73 @@ def lint_graph(
     schemes_named |= {str(o) for _, o in pairs(SKOS.inScheme)}
     schemes_named |= {str(sc) for _, sc in top_of} | {str(sc) for sc, _ in has_top}
     name = _namer(schemes_named, _display_labels(labels_of, languages))
-    out: list[Finding] = []
 
     # hierarchy: child -> parent edges from broader and from narrower
+    up_links = broader + [(c, p) for p, c in narrower]
+    out, tree = _error_findings(concepts, labels_of, up_links, related, name)
+    if warnings:  # every check from here on is of level warning
+        out += _warning_findings(
+            concepts, live, labels_of, (broader, narrower, related), tree, name,
+            typed, pairs, top_of, has_top,
+        )  # fmt: skip
+
+    order = {c.name: i for i, c in enumerate(CHECKS)}
+    out = sorted(set(out), key=lambda f: (order[f.check], f.subjects, f.message))
+    return LintReport(target=target, concepts=len(concepts), findings=out)
+
+
+def _no_labels() -> dict:
+    return {"preferred": [], "alternative": [], "hidden": []}
+
+
+def lint_concepts(
+    concepts,
+    labels_of: dict,
+    up_links,
+    related=(),
+    schemes=(),
+    languages: tuple[str, ...] = (),
+    target: str = "<vocabulary>",
+) -> LintReport:
+    """The checks of level error on a vocabulary given as plain data, with no SKOS text
+    to parse (the release gates lint the vocabulary the compile holds in memory):
+
+    - ``concepts``: the concepts' IRIs;
+    - ``labels_of``: IRI -> ``{"preferred"|"alternative"|"hidden": [(text, language)]}``,
+      language lower case, ``""`` when untagged (a concept may be missing);
+    - ``up_links``: ``(narrower IRI, broader IRI)`` pairs, from skos:broader and
+      skos:narrower alike; ``related``: skos:related pairs;
+    - ``schemes``: concept scheme IRIs (messages shorten IRIs in their namespace).
+
+    The same checks :func:`lint_graph` runs on a file, so the findings are those
+    ``lint_turtle(..., warnings=False)`` makes of the SKOS text of the same data.
+
+    >>> lint_concepts(["x:a"], {}, [("x:a", "x:a")]).fired() == {
+    ...     "hierarchy-loop", "no-preferred-label"}
+    True
+    """
+    concepts = set(concepts)
+    namer = []
+
+    def name(node) -> str:  # the display labels are worked out only if something is found
+        if not namer:
+            namer.append(_namer(set(schemes), _display_labels(labels_of, languages)))
+        return namer[0](node)
+
+    out, _ = _error_findings(concepts, labels_of, list(up_links), list(related), name)
+    order = {c.name: i for i, c in enumerate(CHECKS)}
+    out = sorted(set(out), key=lambda f: (order[f.check], f.subjects, f.message))
+    return LintReport(target=target, concepts=len(concepts), findings=out)
+
+
+def _error_findings(concepts: set, labels_of: dict, up_links: list, related: list, name):
+    """Every check of level error: THE definition of each, for a file and for a
+    vocabulary held in memory alike. Returns the findings and the hierarchy (child ->
+    parent) the warning checks look at too."""
+    out: list[Finding] = []
     tree = nx.DiGraph()
     tree.add_nodes_from(concepts)
-    tree.add_edges_from(broader)
-    tree.add_edges_from((c, p) for p, c in narrower)
+    tree.add_edges_from(up_links)
     for comp in nx.strongly_connected_components(tree):
         if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
             names = ", ".join(sorted(name(n) for n in comp))
@@ -299,59 +361,77 @@ def lint_graph(
                         "which is above it in the hierarchy",
                     )
                 )
-
-    # labels
-    shared: dict[tuple[str, str], set] = defaultdict(set)
+    none = _no_labels()
     for c in sorted(concepts, key=str):
-        labels = labels_of[c] if c in labels_of else {k: [] for k in kinds}
-        if not labels["preferred"]:
-            out.append(_finding("no-preferred-label", [c], f"{name(c)} has no preferred label"))
-        by_lang = defaultdict(set)
-        for lit in labels["preferred"]:
-            by_lang[_lang(lit)].add(str(lit))
-        for lang, texts in sorted(by_lang.items()):
-            if len(texts) > 1:
-                shown = ", ".join(repr(t) for t in sorted(texts))
+        out += _label_findings(c, labels_of.get(c, none), name)
+    return out, tree
+
+
+def _label_findings(c, labels: dict, name) -> list[Finding]:
+    """The label checks of level error on one concept (``labels``: kind -> [(text, lang)])."""
+    out: list[Finding] = []
+    if not labels["preferred"]:
+        out.append(_finding("no-preferred-label", [c], f"{name(c)} has no preferred label"))
+    by_lang = defaultdict(set)
+    for text, lang in labels["preferred"]:
+        by_lang[lang].add(text)
+    for lang, texts in sorted(by_lang.items()):
+        if len(texts) > 1:
+            shown = ", ".join(repr(t) for t in sorted(texts))
+            out.append(
+                _finding(
+                    "two-preferred-labels",
+                    [c],
+                    f"{name(c)} has {len(texts)} preferred labels in "
+                    f"{lang or 'no language'}: {shown}",
+                )
+            )
+    seen: dict[tuple[str, str], str] = {}
+    for kind, lits in labels.items():
+        for text, lang in sorted(lits):
+            if not text.strip():
+                out.append(_finding("blank-label", [c], f"{name(c)} has an empty {kind} label"))
+                continue
+            bad = (
+                []  # str.isprintable() is False for every character we flag
+                if text.isprintable()
+                else sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+            )
+            if bad:
                 out.append(
                     _finding(
-                        "two-preferred-labels",
+                        "control-character-in-label",
                         [c],
-                        f"{name(c)} has {len(texts)} preferred labels in "
-                        f"{lang or 'no language'}: {shown}",
+                        f"{kind} label {text!r} of {name(c)} holds {', '.join(bad)}",
                     )
                 )
-        seen: dict[tuple[str, str], str] = {}
-        for kind, lits in labels.items():
-            for lit in sorted(lits, key=str):
-                text = str(lit)
-                if not text.strip():
-                    out.append(_finding("blank-label", [c], f"{name(c)} has an empty {kind} label"))
-                    continue
-                bad = (
-                    []  # str.isprintable() is False for every character we flag
-                    if text.isprintable()
-                    else sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+            key = (text, lang)
+            if key in seen and seen[key] != kind:
+                out.append(
+                    _finding(
+                        "label-kind-clash",
+                        [c],
+                        f"{text!r} is both the {seen[key]} and the {kind} label of {name(c)}",
+                    )
                 )
-                if bad:
-                    out.append(
-                        _finding(
-                            "control-character-in-label",
-                            [c],
-                            f"{kind} label {text!r} of {name(c)} holds {', '.join(bad)}",
-                        )
-                    )
-                key = (text, _lang(lit))
-                if key in seen and seen[key] != kind:
-                    out.append(
-                        _finding(
-                            "label-kind-clash",
-                            [c],
-                            f"{text!r} is both the {seen[key]} and the {kind} label of {name(c)}",
-                        )
-                    )
-                seen.setdefault(key, kind)
-                if warnings and kind != "hidden" and c in live:
-                    shared[(match_key(text), _lang(lit))].add(c)
+            seen.setdefault(key, kind)
+    return out
+
+
+def _warning_findings(
+    concepts, live, labels_of, links_by_kind, tree, name, typed, pairs, top_of, has_top
+) -> list[Finding]:
+    """Every check of level warning (on a parsed file only)."""
+    broader, narrower, related = links_by_kind
+    out: list[Finding] = []
+    shared: dict[tuple[str, str], set] = defaultdict(set)
+    for c in live:
+        for kind, lits in labels_of.get(c, _no_labels()).items():
+            if kind == "hidden":
+                continue
+            for text, lang in lits:
+                if text.strip():
+                    shared[(match_key(text), lang)].add(c)
     for (key, lang), owners in sorted(shared.items()):
         if len(owners) > 1:
             names = ", ".join(sorted(name(o) for o in owners))
@@ -363,82 +443,76 @@ def lint_graph(
                 )
             )
 
-    if warnings:  # every check from here on is of level warning
-        # language coverage: languages of the preferred labels of live concepts
-        def prefs(c):
-            return labels_of[c]["preferred"] if c in labels_of else []
+    # language coverage: languages of the preferred labels of live concepts
+    def prefs(c):
+        return labels_of[c]["preferred"] if c in labels_of else []
 
-        langs_of = {c: {_lang(lit) for lit in prefs(c)} - {""} for c in live}
-        used = set().union(*langs_of.values()) if langs_of else set()
-        for c in sorted(live, key=str):
-            if not prefs(c):
-                continue  # reported as no-preferred-label
-            missing = sorted(used - langs_of[c])
-            if missing:
-                out.append(
-                    _finding(
-                        "language-gap",
-                        [c],
-                        f"{name(c)} has no preferred label in {', '.join(missing)}",
-                    )
-                )
-
-        # structure among live concepts: orphans and separate groups
-        links = nx.Graph()
-        links.add_nodes_from(live)
-        for rel in (broader, narrower, related):
-            links.add_edges_from((a, b) for a, b in rel if a in live and b in live and a != b)
-        for c in sorted(live, key=str):
-            if links.degree(c) == 0:
-                out.append(
-                    _finding(
-                        "unlinked-concept",
-                        [c],
-                        f"{name(c)} has no broader, narrower or related link",
-                    )
-                )
-        groups = [comp for comp in nx.connected_components(links) if len(comp) > 1]
-        if len(groups) > 1:
-            groups.sort(key=lambda comp: (-len(comp), min(str(n) for n in comp)))
-            desc = "; ".join(f"{len(comp)} around {name(min(comp, key=str))}" for comp in groups)
+    langs_of = {c: {lang for _, lang in prefs(c)} - {""} for c in live}
+    used = set().union(*langs_of.values()) if langs_of else set()
+    for c in sorted(live, key=str):
+        if not prefs(c):
+            continue  # reported as no-preferred-label
+        missing = sorted(used - langs_of[c])
+        if missing:
             out.append(
                 _finding(
-                    "split-hierarchy",
-                    [min(str(n) for n in comp) for comp in groups],
-                    f"linked concepts fall into {len(groups)} separate groups: {desc}",
+                    "language-gap",
+                    [c],
+                    f"{name(c)} has no preferred label in {', '.join(missing)}",
                 )
             )
 
-        # concept schemes and their top concepts
-        schemes = set(typed[str(SKOS.ConceptScheme)]) | {o for _, o in pairs(SKOS.inScheme)}
-        schemes |= {sc for _, sc in top_of}
-        tops = defaultdict(set)
-        for sc, c in has_top:
-            tops[sc].add(c)
-        for c, sc in top_of:
-            tops[sc].add(c)
-        for sc in sorted(schemes, key=str):
-            if not tops[sc]:
+    # structure among live concepts: orphans and separate groups
+    links = nx.Graph()
+    links.add_nodes_from(live)
+    for rel in (broader, narrower, related):
+        links.add_edges_from((a, b) for a, b in rel if a in live and b in live and a != b)
+    for c in sorted(live, key=str):
+        if links.degree(c) == 0:
+            out.append(
+                _finding(
+                    "unlinked-concept",
+                    [c],
+                    f"{name(c)} has no broader, narrower or related link",
+                )
+            )
+    groups = [comp for comp in nx.connected_components(links) if len(comp) > 1]
+    if len(groups) > 1:
+        groups.sort(key=lambda comp: (-len(comp), min(str(n) for n in comp)))
+        desc = "; ".join(f"{len(comp)} around {name(min(comp, key=str))}" for comp in groups)
+        out.append(
+            _finding(
+                "split-hierarchy",
+                [min(str(n) for n in comp) for comp in groups],
+                f"linked concepts fall into {len(groups)} separate groups: {desc}",
+            )
+        )
+
+    # concept schemes and their top concepts
+    schemes = set(typed[str(SKOS.ConceptScheme)]) | {o for _, o in pairs(SKOS.inScheme)}
+    schemes |= {sc for _, sc in top_of}
+    tops = defaultdict(set)
+    for sc, c in has_top:
+        tops[sc].add(c)
+    for c, sc in top_of:
+        tops[sc].add(c)
+    for sc in sorted(schemes, key=str):
+        if not tops[sc]:
+            out.append(
+                _finding("scheme-without-top", [sc], f"concept scheme {sc} names no top concept")
+            )
+    for sc in sorted(tops, key=str):
+        for c in sorted(tops[sc], key=str):
+            parents = sorted(name(p) for p in tree.successors(c)) if c in tree else []
+            if c in live and parents:
                 out.append(
                     _finding(
-                        "scheme-without-top", [sc], f"concept scheme {sc} names no top concept"
+                        "top-concept-with-parent",
+                        [c],
+                        f"top concept {name(c)} of {sc} has broader {', '.join(parents)}",
                     )
                 )
-        for sc in sorted(tops, key=str):
-            for c in sorted(tops[sc], key=str):
-                parents = sorted(name(p) for p in tree.successors(c)) if c in tree else []
-                if c in live and parents:
-                    out.append(
-                        _finding(
-                            "top-concept-with-parent",
-                            [c],
-                            f"top concept {name(c)} of {sc} has broader {', '.join(parents)}",
-                        )
-                    )
-
-    order = {c.name: i for i, c in enumerate(CHECKS)}
-    out = sorted(set(out), key=lambda f: (order[f.check], f.subjects, f.message))
-    return LintReport(target=target, concepts=len(concepts), findings=out)
+    return out
 
 
 def _skos_file(target: Path) -> Path:

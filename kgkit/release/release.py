@@ -273,7 +273,6 @@ def make_release(
         load_curation(spec.curation) if spec.curation else (),
         previous=before if previous is not None else None,
         previous_name=f"release {previous}" if previous is not None else None,
-        skos=files.get("skos.ttl"),
     )
     refused = [p for p in problems if p.gate not in waived]
     if refused:
@@ -310,6 +309,7 @@ def make_release(
         stale,
         overrides,
         vocab,
+        earlier=before,
     )
     diff = VocabDiff(str(previous) if previous else "none", str(ver), diff.changes)
     files["changelog.json"] = changelog_json(cl)
