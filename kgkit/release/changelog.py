@@ -46,16 +46,21 @@ def changelog_data(
     stale: list,
     waived: list | tuple = (),
     vocab=None,
+    earlier=None,
 ) -> dict:
     """The changelog as plain data (what ``changelog.json`` holds).
 
     ``waived``: the release gates the owner released past, each ``{"gate", "reason",
     "problems"}`` (see :func:`kgkit.release.gates.waived_record`). ``vocab``: the
     released :class:`~kgkit.vocab.model.Vocabulary`, whose report lists the names
-    carried from deprecated topics to their replacements and the names that no
-    longer match any topic (``names_carried``, ``names_lost``; topics by label).
+    carried from deprecated topics to their replacements, the names that no
+    longer match any topic and those that no longer match their topic but lead to
+    other topics now (``names_carried``, ``names_lost``, ``names_moved``: each with
+    ``now``, ``[{"topic", "label"}]``; topics by label). ``earlier``: the previous
+    release's Vocabulary; a name it had carried already, with the same result, is
+    not listed again (the changelog says what changed since it).
     """
-    carried, lost = _names(vocab, previous)
+    carried, lost, moved = _names(vocab, previous, earlier)
     return {
         "vocabulary": name,
         "version": version,
@@ -68,13 +73,21 @@ def changelog_data(
         "waived_gates": list(waived),
         "names_carried": carried,
         "names_lost": lost,
+        "names_moved": moved,
     }
 
 
-def _names(vocab, previous) -> tuple[list[dict], list[dict]]:
+def _carried_key(c: dict) -> tuple:
+    return tuple(c.get(k) for k in ("from", "to", "language", "name", "result"))
+
+
+def _names(vocab, previous, earlier=None) -> tuple[list[dict], list[dict], list[dict]]:
     if vocab is None or previous is None:
-        return [], []
+        return [], [], []
     report = vocab.report
+    known = set()
+    if earlier is not None and earlier.report is not None:
+        known = {_carried_key(c) for c in earlier.report.carried_names or ()}
 
     def label(tid):
         return vocab.display_label(tid) if tid in vocab else None
@@ -82,14 +95,25 @@ def _names(vocab, previous) -> tuple[list[dict], list[dict]]:
     carried = [
         {**c, "from_label": label(c["from"]), "to_label": label(c["to"])}
         for c in report.carried_names or ()
+        if _carried_key(c) not in known
     ]
+    fields = ("name", "language", "topic", "label", "reason", "kind")
     lost = [
-        {k: n.get(k) for k in ("name", "language", "topic", "label", "reason", "kind")}
-        for n in report.lost_names or ()
-        if not n.get("still_matches")
+        {k: n.get(k) for k in fields} for n in report.lost_names or () if not n.get("still_matches")
     ]
-    lost.sort(key=lambda n: (n["name"].casefold(), n["name"], n["language"], n["topic"]))
-    return carried, lost
+    # a word that stopped matching its topic but leads to others: not lost to annotators,
+    # but it tags something else now, which the owner must see
+    moved = [
+        {
+            **{k: n.get(k) for k in fields},
+            "now": [{"topic": t, "label": label(t)} for t in n["still_matches"]],
+        }
+        for n in report.lost_names or ()
+        if n.get("still_matches")
+    ]
+    for names in (lost, moved):
+        names.sort(key=lambda n: (n["name"].casefold(), n["name"], n["language"], n["topic"]))
+    return carried, lost, moved
 
 
 def changelog_json(data: dict) -> str:
@@ -139,6 +163,22 @@ def changelog_markdown(data: dict, diff: VocabDiff) -> str:
             lines.append(
                 f"- {json.dumps(n['name'], ensure_ascii=False)} [{n['language'] or 'untagged'}],"
                 f" was a name of {topic_text(n['label'], n['topic'])}: {n['reason']}"
+            )
+        lines.append("")
+    if data.get("names_moved"):
+        lines += [
+            "## Names now matching other topics",
+            "",
+            "These words no longer match their topic: annotators get the topics named"
+            " after each line instead.",
+            "",
+        ]
+        for n in data["names_moved"]:
+            now = ", ".join(topic_text(t["label"], t["topic"]) for t in n["now"])
+            lines.append(
+                f"- {json.dumps(n['name'], ensure_ascii=False)} [{n['language'] or 'untagged'}],"
+                f" was a name of {topic_text(n['label'], n['topic'])}: {n['reason']}"
+                f" (now matches {now})"
             )
         lines.append("")
     if data.get("names_carried"):
