@@ -336,23 +336,22 @@ def lint_concepts(
 
 def _error_findings(concepts: set, labels_of: dict, up_links: list, related: list, name):
     """Every check of level error: THE definition of each, for a file and for a
-    vocabulary held in memory alike. Returns the findings and the hierarchy (child ->
-    parent) the warning checks look at too."""
+    vocabulary held in memory alike. Returns the findings and the hierarchy (node ->
+    set of the nodes right above it) the warning checks look at too."""
     out: list[Finding] = []
-    tree = nx.DiGraph()
-    tree.add_nodes_from(concepts)
-    tree.add_edges_from(up_links)
-    for comp in nx.strongly_connected_components(tree):
-        if len(comp) > 1 or any(tree.has_edge(n, n) for n in comp):
-            names = ", ".join(sorted(name(n) for n in comp))
-            out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
+    up_of: dict = defaultdict(set)
+    for low, high in up_links:
+        up_of[low].add(high)
+    for comp in _loops(up_of):
+        names = ", ".join(sorted(name(n) for n in comp))
+        out.append(_finding("hierarchy-loop", comp, f"broader links loop through {names}"))
     # SKOS S27: a related pair where one concept is above the other (either way round,
     # since skos:related is symmetric)
     for a, b in sorted({tuple(sorted((x, y), key=str)) for x, y in related}, key=str):
         if a == b:
             continue
         for low, high in ((a, b), (b, a)):
-            if low in tree and high in nx.descendants(tree, low):
+            if high in _above(up_of, low):
                 out.append(
                     _finding(
                         "related-to-ancestor",
@@ -364,57 +363,98 @@ def _error_findings(concepts: set, labels_of: dict, up_links: list, related: lis
     none = _no_labels()
     for c in sorted(concepts, key=str):
         out += _label_findings(c, labels_of.get(c, none), name)
-    return out, tree
+    return out, up_of
+
+
+def _above(up_of: dict, node) -> set:
+    """Every node reached from ``node`` by following links up (``node`` itself only
+    through a loop)."""
+    seen: set = set()
+    todo = list(up_of.get(node, ()))
+    while todo:
+        n = todo.pop()
+        if n not in seen:
+            seen.add(n)
+            todo.extend(up_of.get(n, ()))
+    return seen
+
+
+def _loops(up_of: dict) -> list[set]:
+    """The groups of nodes that following links up leads round in a circle: the
+    strongly connected components of more than one node, or of one node linked to
+    itself. Nodes from which a chain of links ends (all of a sound hierarchy) are
+    peeled off first in plain Python; networkx looks only at what is left."""
+    below: dict = defaultdict(list)
+    left = {}
+    for low, highs in up_of.items():
+        left[low] = len(highs)
+        for high in highs:
+            below[high].append(low)
+    todo = [n for n in below if n not in left]  # linked to from below, nothing above
+    while todo:
+        for low in below.get(todo.pop(), ()):
+            left[low] -= 1
+            if not left[low]:
+                todo.append(low)
+    rest = {n for n, k in left.items() if k}
+    if not rest:
+        return []
+    g = nx.DiGraph()
+    g.add_edges_from((low, high) for low in rest for high in up_of[low] if high in rest)
+    return [
+        comp
+        for comp in nx.strongly_connected_components(g)
+        if len(comp) > 1 or any(g.has_edge(n, n) for n in comp)
+    ]
 
 
 def _label_findings(c, labels: dict, name) -> list[Finding]:
     """The label checks of level error on one concept (``labels``: kind -> [(text, lang)])."""
     out: list[Finding] = []
-    if not labels["preferred"]:
+    prefs = labels["preferred"]
+    if not prefs:
         out.append(_finding("no-preferred-label", [c], f"{name(c)} has no preferred label"))
-    by_lang = defaultdict(set)
-    for text, lang in labels["preferred"]:
-        by_lang[lang].add(text)
-    for lang, texts in sorted(by_lang.items()):
-        if len(texts) > 1:
-            shown = ", ".join(repr(t) for t in sorted(texts))
-            out.append(
-                _finding(
-                    "two-preferred-labels",
-                    [c],
-                    f"{name(c)} has {len(texts)} preferred labels in "
-                    f"{lang or 'no language'}: {shown}",
+    elif len(prefs) > 1:
+        by_lang = defaultdict(set)
+        for text, lang in prefs:
+            by_lang[lang].add(text)
+        for lang, texts in sorted(by_lang.items()):
+            if len(texts) > 1:
+                shown = ", ".join(repr(t) for t in sorted(texts))
+                out.append(
+                    _finding(
+                        "two-preferred-labels",
+                        [c],
+                        f"{name(c)} has {len(texts)} preferred labels in "
+                        f"{lang or 'no language'}: {shown}",
+                    )
                 )
-            )
     seen: dict[tuple[str, str], str] = {}
     for kind, lits in labels.items():
-        for text, lang in sorted(lits):
+        for key in lits:
+            text = key[0]
             if not text.strip():
                 out.append(_finding("blank-label", [c], f"{name(c)} has an empty {kind} label"))
                 continue
-            bad = (
-                []  # str.isprintable() is False for every character we flag
-                if text.isprintable()
-                else sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
-            )
-            if bad:
-                out.append(
-                    _finding(
-                        "control-character-in-label",
-                        [c],
-                        f"{kind} label {text!r} of {name(c)} holds {', '.join(bad)}",
+            if not text.isprintable():  # False for every character flagged here
+                bad = sorted({f"U+{ord(ch):04X}" for ch in text if _is_unprintable(ch)})
+                if bad:
+                    out.append(
+                        _finding(
+                            "control-character-in-label",
+                            [c],
+                            f"{kind} label {text!r} of {name(c)} holds {', '.join(bad)}",
+                        )
                     )
-                )
-            key = (text, lang)
-            if key in seen and seen[key] != kind:
+            first = seen.setdefault(key, kind)
+            if first != kind:
                 out.append(
                     _finding(
                         "label-kind-clash",
                         [c],
-                        f"{text!r} is both the {seen[key]} and the {kind} label of {name(c)}",
+                        f"{text!r} is both the {first} and the {kind} label of {name(c)}",
                     )
                 )
-            seen.setdefault(key, kind)
     return out
 
 
@@ -503,7 +543,7 @@ def _warning_findings(
             )
     for sc in sorted(tops, key=str):
         for c in sorted(tops[sc], key=str):
-            parents = sorted(name(p) for p in tree.successors(c)) if c in tree else []
+            parents = sorted(name(p) for p in tree.get(c, ()))
             if c in live and parents:
                 out.append(
                     _finding(
