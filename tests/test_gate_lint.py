@@ -80,6 +80,9 @@ CRAFTED = {
         # a label lent from en-GB is written under en, beside the en label
         topic("sail", {"en": "sailing", "en-GB": "yachting"}, parents=("sport",)),
         topic("row", {"en": "rowing", "EN": "oaring"}, parents=("sport",)),
+        # two topics of one IRI are one concept in the file
+        topic("kayak", {"en": "kayak"}, parents=("sport",)),
+        TopicRecord.make("kayak-2", labels={"en": "canoe"}, iri=NS + "kayak"),
         label_tags={"sail": {"en-GB": "en"}},
     ),
     "label-kind-clash": vocab(

@@ -152,26 +152,36 @@ def lint_input(vocab) -> tuple[list[str], dict, list[tuple[str, str]]]:
     records = vocab.topics
     iri_of = {r.id: r.iri for r in records}
     active = {r.id for r in records if r.is_active}
-    no_tags: dict[str, str] = {}
+    label_tags = vocab.label_tags
     labels_of: dict[str, dict] = {}
     up: list[tuple[str, str]] = []
     for r in records:
-        tags = vocab.label_tags.get(r.id, no_tags)
-        kinds = labels_of.setdefault(r.iri, {"preferred": [], "alternative": [], "hidden": []})
-        written = set()
-        for lang, text in r.labels.items():
-            tag = tags.get(lang, lang)
-            written.add((text, tag))
-            kinds["preferred"].append((text, tag.lower()))
-        for lang, aliases in r.aliases.items():
-            for a in aliases:
-                if (a, lang) not in written:
-                    kinds["alternative"].append((a, lang.lower()))
-        for p in r.parents:
-            if r.is_active:
-                up.append((r.iri, iri_of[p]))  # skos:broader
-            if p in active:
-                up.append((r.iri, iri_of[p]))  # the parent's skos:narrower
+        labels, tags = r.labels, label_tags.get(r.id)
+        if tags:  # lent labels: written under their tag
+            preferred = [(text, tags.get(lang, lang).lower()) for lang, text in labels.items()]
+            written = {(text, tags.get(lang, lang)) for lang, text in labels.items()}
+        else:
+            preferred = [(text, lang.lower()) for lang, text in labels.items()]
+            written = {(text, lang) for lang, text in labels.items()} if r.aliases else ()
+        alternative = [
+            (a, lang.lower())
+            for lang, aliases in r.aliases.items()
+            for a in aliases
+            if (a, lang) not in written  # an alias equal to a preferred label: not written
+        ]
+        kinds = labels_of.get(r.iri)
+        if kinds is None:
+            labels_of[r.iri] = {"preferred": preferred, "alternative": alternative, "hidden": []}
+        else:  # two topics of one IRI are one concept in the file
+            kinds["preferred"] += preferred
+            kinds["alternative"] += alternative
+        if r.parents:
+            is_active = r.is_active
+            for p in r.parents:
+                if is_active:
+                    up.append((r.iri, iri_of[p]))  # skos:broader
+                if p in active:
+                    up.append((r.iri, iri_of[p]))  # the parent's skos:narrower
     return list(iri_of.values()), labels_of, up
 
 
