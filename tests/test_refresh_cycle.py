@@ -373,11 +373,6 @@ def _undo_redirect(cycle, kgkit, workspace, ambiguous: str | None = None):
     return r1, r2, r3
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="vocab-core: names carried from a topic stay carried after that topic is "
-    "restored, so its own label also matches its former replacement",
-)
 def test_restored_topic_takes_its_names_back_from_its_former_replacement(cycle, kgkit, workspace):
     r1, r2, r3 = _undo_redirect(cycle, kgkit, workspace)
     rows = lexicon(r3)
@@ -388,11 +383,6 @@ def test_restored_topic_takes_its_names_back_from_its_former_replacement(cycle, 
     assert names_not_followed(r2, r3) == []
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="vocab-core: with a dropping ambiguity policy a restored topic's names are "
-    "carried once more and dropped as ambiguous, then come back in the next release",
-)
 def test_release_after_a_restore_without_any_change_has_nothing_to_release(cycle, kgkit, workspace):
     """The demo's own symptom (re-importing its first dump after 2.0.0): release 3 loses
     'raku' from both topics as ambiguous, and a fourth release from the very same inputs

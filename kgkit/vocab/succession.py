@@ -288,7 +288,8 @@ def plan_succession(
     has, their replacements among its active topics, and the names each replacement
     inherits: every preferred label and alias the old topic had in the previous
     release (for a topic the curation merged, too), and the names carried in the
-    previous release to a topic that is still active.
+    previous release to a topic that is still active, unless the topic they came
+    from is active again (restored: it takes its names back).
     """
     gone = {
         t.id: t
@@ -310,7 +311,12 @@ def plan_succession(
     seen = {(c["to"], c["language"], c["name"]) for c in carry}
     for c in previous.report.carried_names or ():
         where = (c.get("to"), c.get("language"), c.get("name"))
-        if c.get("result") == "kept" and where[0] in active and where not in seen:
+        if (
+            c.get("result") == "kept"
+            and where[0] in active
+            and c.get("from") not in active
+            and where not in seen
+        ):
             seen.add(where)
             carry.append({f: c[f] for f in ("from", "to", "language", "name", "kind")})
     return Succession(reps, carry)
