@@ -241,6 +241,16 @@ def curate_topics(
         lambda t: choose_labels(t.labels, lang_rules, t.label_override)[0],
     )
     if carried:
+        # a merge carried onto the very topic it merges into: the merged entity left the
+        # graph and its topic is deprecated in favour of that one already (its names
+        # follow it there), so the merge stands as applied, not as a stale edit
+        for entry in list(curated.stale):
+            hit = carried.get(entry.get("target"))
+            if entry.get("action") == "merge" and hit and resolve(entry["into"]) == hit[1]:
+                curated.stale.remove(entry)
+                curated.applied.append({k: v for k, v in entry.items() if k != "reason"})
+                curated.targets[entry["edit"]] = hit[1]
+        curated.applied.sort(key=lambda entry: entry["edit"])
         for entry in curated.applied:
             refs = [entry.get(f) for f in ("target", "into", "parent")]
             hits = [carried[r] for r in refs if isinstance(r, str) and r in carried]

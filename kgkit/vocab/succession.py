@@ -277,6 +277,10 @@ class Succession:
     carry: list[dict]
 
 
+#: results of a previous release's carried name that carry it again (see plan_succession)
+_CARRIED_AGAIN = ("kept", "already-a-name")
+
+
 def plan_succession(
     previous: Vocabulary,
     topics: Mapping[str, Topic],
@@ -289,7 +293,10 @@ def plan_succession(
     inherits: every preferred label and alias the old topic had in the previous
     release (for a topic the curation merged, too), and the names carried in the
     previous release to a topic that is still active, unless the topic they came
-    from is active again (restored: it takes its names back).
+    from is active again (restored: it takes its names back). A name the replacement
+    had already is carried on too: when the replacement stops having it itself (a
+    merge's edit no longer applies once the merged entity leaves the graph), the
+    name still follows the deprecated topic.
     """
     gone = {
         t.id: t
@@ -312,7 +319,7 @@ def plan_succession(
     for c in previous.report.carried_names or ():
         where = (c.get("to"), c.get("language"), c.get("name"))
         if (
-            c.get("result") == "kept"
+            c.get("result") in _CARRIED_AGAIN
             and where[0] in active
             and c.get("from") not in active
             and where not in seen
