@@ -282,3 +282,38 @@ def test_attribution_of_merges_and_excluded_subtrees():
     ]
     # without the report, the same changes come from the graph
     assert {c.cause for c in diff(old, new).changes} == {"graph"}
+
+
+def test_new_edit_is_not_hidden_by_an_edit_kept_on_both_sides():
+    """An add_alias on canoe polo applied in both releases must not hide that a merge
+    (new) hands paddle sports' names to canoe polo: each edit is judged on its own."""
+    old, new = base(), base()
+    old["canoe-polo"]["aliases"] = {"en": ["kayak polo", "polo on water"]}
+    new["canoe-polo"]["aliases"] = {"en": ["kayak polo", "paddle sports", "polo on water"]}
+    kept = {"action": "add_alias", "edit": 1, "target": "canoe-polo", "alias": "polo on water"}
+    merge = {"action": "merge", "edit": 2, "target": "sailing", "into": "canoe-polo"}
+    # the kept edit moved one line down in the file: still the same edit
+    moved = {**kept, "edit": 2, "line": 9}
+    before = {"curation": {"applied": [kept], "stale": []}}
+    after = {"curation": {"applied": [{**merge, "edit": 1}, moved], "stale": []}}
+    d = diff(old, new, before, after)
+    assert [(c.kind, c.after, c.cause) for c in d.changes] == [
+        ("alias-added", "paddle sports", "curation")
+    ]
+    # without the merge, the graph gave it
+    d = diff(old, new, before, {"curation": {"applied": [moved], "stale": []}})
+    assert [c.cause for c in d.changes] == ["graph"]
+
+
+def test_settle_edit_explains_the_name_it_keeps():
+    """A settle edit keeps a shared name on the topics it lists: the alias that comes
+    back there is the curation's doing (demo: 'netting' kept on net mending)."""
+    old, new = base(), base()
+    new["sailing"]["aliases"] = {"en": ["boats"]}
+    settle = {"action": "settle", "edit": 1, "target": "boats", "keep": ["ex:sailing"]}
+    d = diff(old, new, None, {"curation": {"applied": [settle], "stale": []}})
+    assert [(c.kind, c.topic, c.cause) for c in d.changes] == [
+        ("alias-added", "sailing", "curation")
+    ]
+    d = diff(old, new, None, None)
+    assert [c.cause for c in d.changes] == ["graph"]

@@ -215,6 +215,8 @@ _EDIT_KINDS: dict[str, dict[str, tuple[str, ...]]] = {
         "into": ("alias-added",),
     },
     "add_topic": {"target": ("added", "removed", "deprecated")},
+    # a shared name kept on the listed topics (the ambiguity policy dropped it there)
+    "settle": {"keep": ("alias-added",)},
 }
 #: what undoing an edit's change looks like in the diff
 _UNDONE_BY = {
@@ -246,6 +248,15 @@ def _refs(*sides: Mapping[str, TopicRecord]) -> dict[str, str]:
 _NOT_WHAT = frozenset({"edit", "line", "file", "note", "carried", "overridden_by"})
 
 
+def _ids(value, refs: dict[str, str]):
+    """The topic ids an edit's field names (one reference, or a list of them)."""
+    if isinstance(value, str):
+        return refs.get(value, value)
+    if isinstance(value, list):
+        return sorted(refs.get(v, v) for v in value if isinstance(v, str))
+    return None
+
+
 def _edit_effects(report: Report | None, refs: dict[str, str]) -> dict[str, set[tuple[str, str]]]:
     """What each applied curation edit of a build does -> the (topic id, change kind)
     pairs it can make. The key is the edit's action and fields (topics resolved to
@@ -257,16 +268,12 @@ def _edit_effects(report: Report | None, refs: dict[str, str]) -> dict[str, set[
         if not isinstance(edit, dict):
             continue
         kinds_of = _EDIT_KINDS.get(str(edit.get("action")), {})
-        what = {
-            k: (refs.get(v, v) if k in kinds_of and isinstance(v, str) else v)
-            for k, v in edit.items()
-            if k not in _NOT_WHAT
-        }
+        what = {k: _ids(v, refs) if k in kinds_of else v for k, v in edit.items()}
+        what = {k: v for k, v in what.items() if k not in _NOT_WHAT}
         effects = out.setdefault(json.dumps(what, sort_keys=True, ensure_ascii=False), set())
         for key, kinds in kinds_of.items():
-            ref = edit.get(key)
-            if isinstance(ref, str):
-                tid = refs.get(ref, ref)
+            ids = _ids(edit.get(key), refs)
+            for tid in [ids] if isinstance(ids, str) else ids or ():
                 effects.update((tid, k) for k in kinds)
     # topics the curation excluded with a subtree: the compile names them as dropped
     by_curation = set()
