@@ -145,6 +145,12 @@ def test_redirect_in_refreshed_dump_hands_every_name_to_the_target(cycle, case):
             for ln in carried
         ), (name, carried)
     assert "deprecated raku firing (raku-firing) -> raku kiln firing (raku-kiln-firing)" in out
+    # the curated alias's edit, carried, is named with labels beside ids in report.txt
+    summary = (r2.parent / "build" / "report.txt").read_text(encoding="utf-8")
+    assert (
+        "(add_alias raku-firing) carried from raku firing (raku-firing) "
+        "to raku kiln firing (raku-kiln-firing)"
+    ) in summary, summary
 
 
 def test_curation_merge_hands_every_name_to_the_topic_merged_into(cycle):

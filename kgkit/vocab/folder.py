@@ -309,7 +309,11 @@ def vocabulary_files(
     out: dict[str, Callable[[], str]] = {}
     if report_files:
         out[REPORT_FILE] = lambda: writers.report_json_text(vocab.report.to_json())
-        out["report.txt"] = lambda: writers.report_text(vocab.scheme.name, vocab.report.to_json())
+        out["report.txt"] = lambda: writers.report_text(
+            vocab.scheme.name,
+            vocab.report.to_json(),
+            lambda tid: vocab.display_label(tid) if tid in vocab else None,
+        )
     if "jsonl" in outputs:
         out[FILE_OF_OUTPUT["jsonl"]] = lambda: writers.jsonl_text(vocab.topics)
     if "yaml" in outputs:

@@ -265,8 +265,14 @@ def report_json_text(report: dict) -> str:
     return json.dumps(report, sort_keys=True, ensure_ascii=False, indent=2) + "\n"
 
 
-def report_text(name: str, report: dict) -> str:
-    """The short human summary of a compile."""
+def report_text(name: str, report: dict, label: Callable[[str], str | None] | None = None) -> str:
+    """The short human summary of a compile. ``label``: topic id -> the label to show
+    beside it (see :meth:`kgkit.vocab.model.Vocabulary.display_label`)."""
+    from kgkit.wording import topic_text
+
+    def shown(tid: str) -> str:
+        return topic_text(label(tid), tid) if label is not None else tid
+
     c = report["counts"]
     lines = [
         f"vocabulary {name}: {counted(c['topics'], 'topic')} ({c['deprecated']} deprecated), "
@@ -303,7 +309,8 @@ def report_text(name: str, report: dict) -> str:
         lines.append(f"  {edit_text(o)} overridden by edit {o['overridden_by']}: {o['reason']}")
     for s in cur.get("carried") or []:
         lines.append(
-            f"  {edit_text(s)} carried from {s['carried']['from']} to {s['carried']['to']}"
+            f"  {edit_text(s)} carried from {shown(s['carried']['from'])}"
+            f" to {shown(s['carried']['to'])}"
         )
     for s in cur["stale"]:
         lines.append(f"  {edit_text(s)} is stale: {s['reason']}")
