@@ -359,6 +359,14 @@ def test_clash_suffix_going_away_gives_the_names_back_to_the_plain_id(cycle, kgk
     assert keys_by_topic(lexicon(r1))["weaving"] <= keys_by_topic(lexicon(r3))["weaving"]
     assert names_not_followed(r2, r3) == [] and names_not_followed(r1, r3) == []
     assert t["tablet-weaving"]["parents"] == ["weaving"]
+    # weaving is compared with the suffixed record annotators had, not its deprecated one
+    md = changelog(r3)
+    assert section(md, "Restored") == ["- restored weaving (weaving)  (graph)"]
+    assert not [
+        ln
+        for ln in md.splitlines()
+        if ln.startswith(("- moved weaving (weaving)", "- alias added to weaving"))
+    ]
 
 
 def _undo_redirect(cycle, kgkit, workspace, ambiguous: str | None = None):

@@ -317,3 +317,30 @@ def test_settle_edit_explains_the_name_it_keeps():
     ]
     d = diff(old, new, None, None)
     assert [c.cause for c in d.changes] == ["graph"]
+
+
+def test_restored_topic_is_not_compared_with_its_deprecated_record():
+    """A deprecated record has no parents and no aliases: a restored topic is not
+    'moved' nor given 'alias-added' lines against it. When the same entity was active
+    under the id that replaced it (a clash suffix gone again), it is compared with that."""
+    old, new = base(), base()
+    old["canoe-polo"].update(status="deprecated", replaced_by=None, parents=[], aliases={})
+    old["canoe-polo"]["depth"] = None
+    assert kinds(diff(old, new)) == [("restored", "canoe-polo")]
+    suffixed = topic(
+        "canoe-polo-1a2b3c4d",
+        "canoe polo",
+        ["paddle-sports"],
+        {"en": ["kayak polo"]},
+        source=old["canoe-polo"]["source"],
+    )
+    old["canoe-polo"]["replaced_by"] = suffixed["id"]
+    old[suffixed["id"]] = suffixed
+    new[suffixed["id"]] = {**suffixed, "status": "deprecated", "replaced_by": "canoe-polo"}
+    new[suffixed["id"]].update(parents=[], aliases={}, depth=None)
+    new["canoe-polo"]["aliases"] = {"en": ["kayak polo", "water polo in boats"]}
+    assert [(c.kind, c.topic, c.after) for c in diff(old, new).changes] == [
+        ("deprecated", suffixed["id"], "canoe-polo"),
+        ("restored", "canoe-polo", None),
+        ("alias-added", "canoe-polo", "water polo in boats"),
+    ]

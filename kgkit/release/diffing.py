@@ -461,6 +461,13 @@ def diff_topics(
             continue
         if not a.is_active and b.is_active:
             changes.append(Change("restored", ni, (ni,), cause("restored", [ni])))
+            # what annotators had is not the deprecated record (no parents, no aliases)
+            # but, when the same entity was active under the id that replaced it (a
+            # clash suffix gone again), that record; otherwise "restored" says it all
+            was = old.get(a.replaced_by) if a.replaced_by else None
+            if was is None or not was.is_active or not b.source or was.source != b.source:
+                continue
+            a = was
         elif not a.is_active and not b.is_active:
             if a.replaced_by != b.replaced_by:
                 ids = tuple(x for x in (ni, a.replaced_by, b.replaced_by) if x)
