@@ -14,8 +14,8 @@ Scenarios (one ``tests/data/refresh-*`` folder each): a redirect in the refreshe
 entity outside the vocabulary), a curation merge, an id change (a clash suffix appearing,
 then going away), a deletion without replacement (then the topic coming back), a deleted
 topic whose name another topic takes over, a second redirect over three releases, and a
-redirect undone by the next dump. Findings in others' code are marked
-``xfail(strict=True)`` with the owner named in the reason.
+redirect undone by the next dump. A finding in others' code is marked
+``xfail(strict=True)`` with its owner named in the reason until it is fixed.
 """
 
 from __future__ import annotations
