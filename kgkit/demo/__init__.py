@@ -140,8 +140,9 @@ def _topline(path: Path, n: int) -> list[str]:
 #: the lexicon rules the demo turns on after release 2 (see docs/lexicon.md)
 LEXICON_RULES = "  inflected_forms: [en]\n  common_words: {min_zipf: 4.5}\n"
 #: the curation edit that settles the name two topics share
+SETTLE_KEEP = "net-mending"
 SETTLE_EDIT = (
-    "  - settle: {name: netting, keep: [net-mending]}\n"
+    f"  - settle: {{name: netting, keep: [{SETTLE_KEEP}]}}\n"
     "    note: the crafts desk's word; crop netting goes by its full name\n"
 )
 #: a sentence of our own with plurals and an everyday phrase
@@ -158,9 +159,9 @@ def _shared_lines(names, n: int = 3) -> list[str]:
     out = []
     for x in names[:n]:
         label = "preferred label" if x.preferred_by else "alias"
+        shown = ", ".join(topic_text(c.label, c.topic) for c in x.candidates)
         out.append(
-            f"  {x.key!r}: {len(x.topics)} topics ({', '.join(x.topics)}), {label}, "
-            f"Zipf {x.zipf or 0:.2f}"
+            f"  {x.key!r}: {len(x.topics)} topics ({shown}), {label}, Zipf {x.zipf or 0:.2f}"
         )
     return out
 
@@ -178,7 +179,7 @@ def _lexicon_rules(ws, spec: Path, curation: Path, release: Path) -> Iterator[De
     spec.write_text(text, encoding="utf-8")
     curation.write_text(curation.read_text(encoding="utf-8") + SETTLE_EDIT, encoding="utf-8")
     result = compile_vocabulary(ws, spec)
-    report, counts = result.report, result.report["counts"]
+    report, counts, vocab = result.report, result.report["counts"], result.vocabulary
     common = report.get("common_words") or []
     lines = [
         f"plural forms added to the lexicon: {counts['inflected_forms']}",
@@ -186,13 +187,15 @@ def _lexicon_rules(ws, spec: Path, curation: Path, release: Path) -> Iterator[De
         *(
             f"  {c['alias']!r} ({c['language']}) Zipf {c['zipf']:.2f}, "
             f"{' and '.join(_KIND_WORDS.get(k, k) for k in c['kinds'])} of "
-            f"{', '.join(c['topics'])}"
+            f"{', '.join(topic_text(vocab.display_label(t), t) for t in c['topics'])}"
             for c in common[:3]
         ),
     ]
     for d in report["dropped_aliases"]:
         if d["reason"].startswith("settled-by-curation"):
-            lines.append(f"settled {d['alias']!r}: kept by net-mending, taken from {d['topic']}")
+            kept = topic_text(vocab.display_label(SETTLE_KEEP), SETTLE_KEEP)
+            taken = topic_text(vocab.display_label(d["topic"]), d["topic"])
+            lines.append(f"settled {d['alias']!r}: kept by {kept}, taken from {taken}")
     left = list_shared_names(result.output)
     lines.append(f"shared names left in the build: {len(left)}")
     yield DemoStep(
@@ -208,7 +211,8 @@ def _lexicon_rules(ws, spec: Path, curation: Path, release: Path) -> Iterator[De
         made = [r for r in rows if r.source]
         how = f"plural of {made[0].source!r}" if made else rows[0].kind
         risk = f"  common word, Zipf {by_key[h.key]['zipf']:.2f}" if h.key in by_key else ""
-        lines.append(f"  {h.text!r} -> {', '.join(c.topic for c in h.candidates)} ({how}){risk}")
+        shown = ", ".join(topic_text(c.label, c.topic) for c in h.candidates)
+        lines.append(f"  {h.text!r} -> {shown} ({how}){risk}")
     yield DemoStep("probed a sentence with the new build", lines, [])
 
 
