@@ -65,7 +65,7 @@ def test_triage_prints_nothing_useful(kgkit, workspace):
     assert lines[0] == f"3 shared names in {out}, the first 1 (riskiest first)"
     assert lines[1].startswith("  1. 'mice'  2 topics; preferred label of 1; Zipf ")
     assert lines[1].endswith("; in the lexicon (kept)")
-    assert lines[2] == "       mice-band \u201cMice\u201d  parents: music (music)"
+    assert lines[2] == "       Mice (mice-band)  parents: music (music)"
     assert (
         lines[-1]
         == "settle a name in the curation file, e.g.: - settle: {name: mice, keep: [mice-band]}"

@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from kgkit.cli.common import echo_json
+from kgkit.wording import topic_text
 from kgkit.worklist import list_shared_names
 
 
@@ -63,8 +64,8 @@ def triage_command(folder: Path, corpus: Path | None, limit: int | None, as_json
             facts.append(f"in {n.documents} documents ({n.share:.1%})")
         click.echo(f"{i:>3}. {n.key!r}  {'; '.join(facts)}; {_where(n)}")
         for c in n.candidates:
-            parents = ", ".join(f"{p} ({lab})" for p, lab in c.parents) or "none (a root)"
-            click.echo(f"       {c.topic} \u201c{c.label}\u201d  parents: {parents}")
+            parents = ", ".join(topic_text(lab, p) for p, lab in c.parents) or "none (a root)"
+            click.echo(f"       {topic_text(c.label, c.topic)}  parents: {parents}")
     if shown:
         first = shown[0]
         click.echo(
