@@ -86,13 +86,18 @@ def line_pattern(quads: bool) -> str:
     return f"(?:{_WS}*{subject}{_WS}+{_IRI}{_WS}+{obj}{graph}{_END})"
 
 
-@lru_cache(maxsize=2)
-def _chunk_regex(quads: bool):
-    line = line_pattern(quads)
+def _lines_regex(line: str):
+    """RE2 matching whole chunks of lines of the pattern ``line`` (the last line may lack
+    its ``\\n``), on bytes."""
     options = re2.Options()
     options.encoding = re2.Options.Encoding.LATIN1  # bytes; UTF-8 is checked apart
     options.max_mem = 256 << 20  # room for the DFA of a long pattern
-    return re2.compile(f"(?:{line}\\n)*{line}?".encode("latin-1"), options)
+    return re2.compile(f"(?:{line}\\n)*(?:{line})?".encode("latin-1"), options)
+
+
+@lru_cache(maxsize=2)
+def _chunk_regex(quads: bool):
+    return _lines_regex(line_pattern(quads))
 
 
 @lru_cache(maxsize=8)
@@ -115,10 +120,7 @@ _WRITER_ESCAPES = (b"\xef\xbf\xbe", b"\xef\xbf\xbf", b"^^<http://www.w3.org/2001
 
 @lru_cache(maxsize=1)
 def _canonical_regex():
-    options = re2.Options()
-    options.encoding = re2.Options.Encoding.LATIN1
-    options.max_mem = 256 << 20
-    return re2.compile(f"(?:{_CANON_LINE}\\n)*(?:{_CANON_LINE})?".encode("latin-1"), options)
+    return _lines_regex(_CANON_LINE)
 
 
 def keep_canonical(kept: bytes, slice) -> tuple[bytes, int, int] | None:
